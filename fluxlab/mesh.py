@@ -6,12 +6,24 @@ middle of the air gap, where each part has its own copy of the same equally spac
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass
 
 import numpy as np
 from skfem import MeshTri
 
-__all__ = ["MachineMesh", "BOUNDARY_NAMES"]
+from .errors import MeshError
+
+__all__ = [
+    "MachineMesh",
+    "BOUNDARY_NAMES",
+    "build_mesh",
+    "sliding_divisions",
+    "airgap_element_size",
+    "rib_element_size",
+]
+
+log = logging.getLogger(__name__)
 
 #: Named facet sets every :class:`MachineMesh` of a machine carries.
 #: ``outer``: stator outer surface, A = 0.  ``sliding_rotor`` / ``sliding_stator``: the two
@@ -72,3 +84,136 @@ class MachineMesh:
     def step_angle(self) -> float:
         """Rotor step, rad: the angle of one sliding-circle segment."""
         return self.sector_angle / self.sliding_divisions
+
+
+def sliding_divisions(spec, sector_angle: float) -> int:
+    """Segments of the sliding circle in the sector.
+
+    The segment is about 1.5 times the air-gap element size (so that the gap triangles are
+    well shaped) and the count is a multiple of ``steps_per_slot`` times the slots in the
+    sector, so that a study step of ``1/steps_per_slot`` slot pitch is a whole number of
+    segments.
+    """
+    from .geometry import sliding_radius, slots_in_sector
+
+    unit = spec.mesh.steps_per_slot * slots_in_sector(spec, sector_angle)
+    target = sliding_radius(spec) * sector_angle / (1.5 * airgap_element_size(spec))
+    return unit * max(1, int(np.ceil(target / unit)))
+
+
+def airgap_element_size(spec) -> float:
+    """Element size in the air gap, m: ``airgap_layers`` elements across each half gap."""
+    return spec.stator.airgap / (2 * spec.mesh.airgap_layers)
+
+
+def rib_element_size(spec) -> float:
+    """Element size in the ribs and posts, m (default: a third of the thinnest rib)."""
+    if spec.mesh.rib_size is not None:
+        return spec.mesh.rib_size
+    posts = [b.post_width for b in spec.rotor.barriers if b.post_width > 0]
+    return min([spec.rotor.tangential_rib, *posts]) / 3
+
+
+def _rib_points(spec, sector_angle: float) -> np.ndarray:
+    """Sample points along every tangential rib and post of the sector, (n, 2) m."""
+    from .geometry import poles_in_sector
+    from .geometry.rotor import barrier_placement
+
+    rotor, r_rotor = spec.rotor, spec.rotor_radius
+    pts = []
+    for i, b in enumerate(rotor.barriers):
+        place = barrier_placement(rotor, r_rotor, b, f"rotor.barriers[{i}]")
+        r_rib = r_rotor - rotor.tangential_rib / 2
+        end = np.arctan2(place.end_y, place.end_x)
+        half_span = b.width / r_rib  # the barrier end is about a width wide
+        local = []
+        for a in np.linspace(end - half_span, end + half_span, 7):
+            local += [(r_rib * np.cos(a), r_rib * np.sin(a)), (r_rib * np.cos(a), -r_rib * np.sin(a))]
+        if b.post_width > 0:
+            for x in np.linspace(place.r_axis - b.width, place.r_axis + b.width, 5):
+                local.append((x, 0.0))
+        local = np.asarray(local)
+        for j in range(poles_in_sector(spec, sector_angle)):
+            q = (j + 0.5) * 2 * np.pi / spec.poles
+            c, s = np.cos(q), np.sin(q)
+            pts.append(local @ np.array([[c, s], [-s, c]]))
+    return np.vstack(pts) if pts else np.zeros((0, 2))
+
+
+def _facet_indices(mesh: MeshTri, pairs: np.ndarray) -> np.ndarray:
+    """Indices of mesh facets given as node pairs; MeshError when one is not a facet."""
+    n = mesh.p.shape[1]
+    facets = np.sort(mesh.facets, axis=0)
+    keys = facets[0].astype(np.int64) * n + facets[1]
+    order = np.argsort(keys)
+    pairs = np.sort(pairs, axis=1)
+    wanted = pairs[:, 0].astype(np.int64) * n + pairs[:, 1]
+    pos = np.searchsorted(keys[order], wanted)
+    pos = np.minimum(pos, len(keys) - 1)
+    if not np.all(keys[order][pos] == wanted):
+        raise MeshError("a boundary segment of gmsh is not a facet of the triangle mesh")
+    return order[pos]
+
+
+def _check_elements(points: np.ndarray, triangles: np.ndarray) -> None:
+    p = points[triangles]
+    e1, e2 = p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]
+    area = 0.5 * (e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0])
+    longest = np.max(
+        [np.hypot(*(p[:, 1] - p[:, 0]).T), np.hypot(*(p[:, 2] - p[:, 1]).T),
+         np.hypot(*(p[:, 0] - p[:, 2]).T)], axis=0)
+    quality = 4 * np.sqrt(3) * area / (3 * longest**2)  # 1 equilateral, 0 degenerate
+    if np.any(area <= 0) or np.min(quality) < 1e-3:
+        raise MeshError(
+            f"degenerate or inverted triangles: min area {area.min():.3g} m^2, "
+            f"min quality {quality.min():.3g}"
+        )
+
+
+def build_mesh(spec) -> MachineMesh:
+    """Mesh the modelled sector of a machine: rotor and stator parts apart.
+
+    The sector is the smallest the slot and pole numbers allow
+    (:func:`fluxlab.winding.machine_symmetry`): one pole pitch with anti-periodic edges for
+    an integral-slot winding.
+    """
+    from .geometry import rotor_regions, sliding_radius, stator_regions
+    from .gmsh_part import PartSizes, mesh_part
+    from .winding import machine_symmetry
+
+    sectors, sector_angle, edge_sign = machine_symmetry(spec.stator.slots, spec.poles)
+    n_div = sliding_divisions(spec, sector_angle)
+    r_slide = sliding_radius(spec)
+    fine = airgap_element_size(spec)
+    size = spec.mesh.size
+    rotor = mesh_part(
+        rotor_regions(spec, sector_angle), sector_angle, r_slide, n_div,
+        PartSizes(size, fine, (spec.rotor_radius, r_slide), rib_element_size(spec),
+                  _rib_points(spec, sector_angle)),
+    )
+    stator = mesh_part(
+        stator_regions(spec, sector_angle), sector_angle, r_slide, n_div,
+        PartSizes(size, fine, (r_slide, spec.stator.bore_diameter / 2), size, np.zeros((0, 2))),
+        r_outer=spec.stator.outer_diameter / 2,
+    )
+    offset = len(rotor.points)
+    points = np.vstack([rotor.points, stator.points])
+    triangles = np.vstack([rotor.triangles, stator.triangles + offset])
+    _check_elements(points, triangles)
+    mesh = MeshTri(np.ascontiguousarray(points.T), np.ascontiguousarray(triangles.T))
+    n_rotor = len(rotor.triangles)
+    subdomains = {}
+    for part, first in ((rotor, 0), (stator, n_rotor)):
+        for k, name in enumerate(part.region_names):
+            subdomains[name] = first + np.flatnonzero(part.element_region == k)
+    boundaries = {"outer": _facet_indices(mesh, stator.lines["outer"] + offset)}
+    for part, suffix, shift in ((rotor, "rotor", 0), (stator, "stator", offset)):
+        boundaries[f"sliding_{suffix}"] = _facet_indices(mesh, part.lines["sliding"] + shift)
+        boundaries[f"edge_start_{suffix}"] = _facet_indices(mesh, part.lines["edge_start"] + shift)
+        boundaries[f"edge_end_{suffix}"] = _facet_indices(mesh, part.lines["edge_end"] + shift)
+    mesh = mesh.with_subdomains(subdomains).with_boundaries(boundaries)
+    rotor_element = np.zeros(mesh.t.shape[1], dtype=bool)
+    rotor_element[:n_rotor] = True
+    log.info("meshed %d nodes, %d triangles, %d sliding segments", mesh.p.shape[1],
+             mesh.t.shape[1], n_div)
+    return MachineMesh(mesh, rotor_element, sector_angle, sectors, edge_sign, r_slide, n_div)

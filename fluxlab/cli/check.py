@@ -1,0 +1,46 @@
+"""Validate a machine file and print its summary, or every problem found."""
+
+from __future__ import annotations
+
+import math
+
+from ..spec import load_machine
+
+__all__ = ["add_args", "run", "summary_lines"]
+
+
+def add_args(parser) -> None:
+    parser.add_argument("machine", help="machine file (TOML)")
+
+
+def summary_lines(spec) -> list[str]:
+    """A short human summary of a validated machine."""
+    from ..winding import machine_symmetry, winding_factor, winding_layout
+
+    st, w, r = spec.stator, spec.winding, spec.rotor
+    sectors, sector_angle, sign = machine_symmetry(st.slots, spec.poles)
+    layout = winding_layout(st.slots, spec.poles, w.layers, w.coil_pitch_slots)
+    return [
+        f"machine      {spec.name}: {spec.poles} poles, stack {spec.stack_length * 1e3:g} mm",
+        f"stator       {st.slots} slots, outer {st.outer_diameter * 1e3:g} mm, "
+        f"bore {st.bore_diameter * 1e3:g} mm, air gap {st.airgap * 1e3:g} mm",
+        f"winding      {w.layers} layer(s), pitch {w.coil_pitch_slots} slots, "
+        f"{w.turns_per_coil} turns/coil, {w.parallel_paths} path(s), "
+        f"fundamental winding factor {winding_factor(layout):.4f}",
+        f"rotor        {len(r.barriers)} {r.barrier_shape} barrier(s) per pole, shaft "
+        f"{r.shaft_diameter * 1e3:g} mm, tangential rib {r.tangential_rib * 1e3:g} mm",
+        f"materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
+        f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
+        f"{'anti-' if sign < 0 else ''}periodic edges)",
+        f"rated point  {spec.operating.current_peak_A:g} A peak"
+        + (f" at {math.degrees(spec.operating.current_angle):g} deg from the d-axis"
+           if spec.operating.current_angle is not None else ""),
+    ]
+
+
+def run(args) -> int:
+    spec = load_machine(args.machine)
+    print(f"{args.machine}: valid")
+    for line in summary_lines(spec):
+        print("  " + line)
+    return 0

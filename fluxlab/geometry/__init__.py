@@ -1,0 +1,21 @@
+"""Machine geometry: stator slots, flux barriers, and the modelled sector."""
+
+from .checks import geometry_problems
+from .sector import (
+    poles_in_sector,
+    rotor_regions,
+    slot_region_name,
+    sliding_radius,
+    slots_in_sector,
+    stator_regions,
+)
+
+__all__ = [
+    "geometry_problems",
+    "poles_in_sector",
+    "rotor_regions",
+    "slot_region_name",
+    "sliding_radius",
+    "slots_in_sector",
+    "stator_regions",
+]

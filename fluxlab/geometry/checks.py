@@ -1,0 +1,155 @@
+"""Geometric validity of a machine before meshing: overlaps, thin steel, slot fit.
+
+Works on shapely approximations of the same region trees that are meshed, so a rejected
+candidate costs milliseconds, not a failed mesh.
+"""
+
+from __future__ import annotations
+
+import math
+
+from ..errors import GeometryError
+from ..spec import MachineSpec
+from .csg import disk, to_shapely
+from .rotor import barrier_placement, barrier_shape
+from .stator import slot_outline
+
+__all__ = ["geometry_problems"]
+
+_TOL = 1e-9  # m: geometric tolerance of the comparisons
+
+
+def _mm(x: float) -> str:
+    return f"{x * 1e3:.4g}"
+
+
+def _stator_problems(spec: MachineSpec) -> list[str]:
+    st = spec.stator
+    s = slot_outline(st)
+    pitch = 2 * math.pi / st.slots
+    r_bore = st.bore_diameter / 2
+    problems = []
+    if s.half_width_top <= 0 or s.half_width_bottom <= 0:
+        problems.append(
+            f"stator.tooth_width_mm = {_mm(st.tooth_width or 0)}: leaves no slot body "
+            f"(slot half width {_mm(s.half_width_top)} mm at its top)"
+        )
+        return problems
+    if s.half_width_top < st.slot_opening / 2 - _TOL:
+        problems.append(
+            f"stator.slot_opening_mm = {_mm(st.slot_opening)}: wider than the slot body at "
+            f"its top ({_mm(2 * s.half_width_top)} mm)"
+        )
+    tooth_at_tip = 2 * s.x_top * math.sin(pitch / 2) - 2 * s.half_width_top
+    tooth_at_bore = 2 * r_bore * math.sin(pitch / 2) - st.slot_opening
+    tooth_at_bottom = 2 * s.x_side_end * math.sin(pitch / 2) - 2 * s.half_width_bottom
+    worst = min(tooth_at_tip, tooth_at_bore, tooth_at_bottom)
+    if worst < spec.rotor.min_steel:
+        key = "slot_width_mm" if st.slot_width is not None else "slot_opening_mm"
+        value = st.slot_width if st.slot_width is not None else st.slot_opening
+        problems.append(
+            f"stator.{key} = {_mm(value)}: the teeth get {_mm(worst)} mm thin, less than "
+            f"rotor.min_steel_mm = {_mm(spec.rotor.min_steel)} (slot pitch at the bore "
+            f"{_mm(r_bore * pitch)} mm)"
+        )
+    if st.slot_bottom == "round" and s.x_side_end < s.x_top:
+        problems.append(
+            f"stator.slot_depth_mm = {_mm(st.slot_depth)}: too shallow for a round bottom of "
+            f"radius {_mm(s.round_radius)} mm after the tip height {_mm(st.tip_height)} mm"
+        )
+    if st.slot_bottom == "flat" and st.bottom_fillet > min(
+        s.half_width_bottom, s.x_bottom - s.x_top
+    ) / 1.01:
+        problems.append(
+            f"stator.bottom_fillet_mm = {_mm(st.bottom_fillet)}: must be less than half the "
+            f"slot bottom width ({_mm(s.half_width_bottom)} mm) and the body depth"
+        )
+    return problems
+
+
+def _barrier_problems(spec: MachineSpec) -> list[str]:
+    from shapely.geometry import LineString
+
+    rotor, r_rotor = spec.rotor, spec.rotor_radius
+    problems: list[str] = []
+    half_pole = math.pi / spec.poles
+    d_axis = LineString([(0, 0), (3 * r_rotor * math.cos(half_pole),
+                                  3 * r_rotor * math.sin(half_pole))])
+    shaft = to_shapely(disk(0.0, 0.0, rotor.shaft_diameter / 2))
+    shapes = []
+    for i, b in enumerate(rotor.barriers):
+        key = f"rotor.barriers[{i}]"
+        if b.depth - b.width / 2 < rotor.tangential_rib - _TOL:
+            problems.append(
+                f"{key}.depth_mm = {_mm(b.depth)}: the barrier crosses the air gap on the "
+                f"q-axis; depth must be at least width/2 + tangential rib = "
+                f"{_mm(b.width / 2 + rotor.tangential_rib)} mm"
+            )
+            shapes.append(None)
+            continue
+        try:
+            place = barrier_placement(rotor, r_rotor, b, key)
+        except GeometryError as err:
+            problems.extend(err.problems)
+            shapes.append(None)
+            continue
+        if rotor.barrier_shape == "u" and place.end_y - b.width / 2 <= b.post_width / 2 + _TOL:
+            problems.append(
+                f"{key}.end_angle_deg = {math.degrees(b.end_angle):.4g}: too small for a U "
+                f"barrier of width {_mm(b.width)} mm; its legs would meet"
+            )
+            shapes.append(None)
+            continue
+        shape = to_shapely(barrier_shape(rotor, r_rotor, b, key))
+        shapes.append(shape)
+        if shape.is_empty or shape.geom_type != "Polygon":
+            problems.append(f"{key}: the barrier is not one connected piece; check its values")
+            continue
+        clearance = shape.distance(shaft)
+        if clearance < rotor.min_steel - _TOL:
+            problems.append(
+                f"{key}.depth_mm = {_mm(b.depth)}: leaves {_mm(clearance)} mm of steel to the "
+                f"shaft, less than rotor.min_steel_mm = {_mm(rotor.min_steel)}"
+            )
+        to_d = shape.distance(d_axis)
+        if 2 * to_d < rotor.min_steel - _TOL or shape.intersects(d_axis):
+            problems.append(
+                f"{key}.end_angle_deg = {math.degrees(b.end_angle):.4g}: the barrier comes "
+                f"{_mm(to_d)} mm from the d-axis; the steel between neighbouring poles "
+                f"({_mm(2 * to_d)} mm) is less than rotor.min_steel_mm = {_mm(rotor.min_steel)}"
+            )
+    for i in range(len(shapes) - 1):
+        a, b = shapes[i], shapes[i + 1]
+        key = f"rotor.barriers[{i + 1}]"
+        if rotor.barriers[i + 1].depth <= rotor.barriers[i].depth:
+            problems.append(
+                f"{key}.depth_mm = {_mm(rotor.barriers[i + 1].depth)}: barriers go from the "
+                f"surface inwards; must be deeper than rotor.barriers[{i}].depth_mm = "
+                f"{_mm(rotor.barriers[i].depth)}"
+            )
+            continue
+        if a is None or b is None:
+            continue
+        gap = a.distance(b)
+        if gap < rotor.min_steel - _TOL or a.intersects(b):
+            problems.append(
+                f"{key}: {_mm(gap)} mm of steel to rotor.barriers[{i}], less than "
+                f"rotor.min_steel_mm = {_mm(rotor.min_steel)} (barriers overlap or nearly)"
+            )
+    return problems
+
+
+def geometry_problems(spec: MachineSpec) -> list[str]:
+    """Every geometric problem of a machine, as messages naming key, value and limit."""
+    from ..winding import machine_symmetry
+
+    problems = _stator_problems(spec) + _barrier_problems(spec)
+    sectors, _, _ = machine_symmetry(spec.stator.slots, spec.poles)
+    if sectors < 2:
+        problems.append(
+            f"machine.poles = {spec.poles} with stator.slots = {spec.stator.slots}: the "
+            "machine has no rotational symmetry; fluxlab models sectors of at most half the "
+            "machine"
+        )
+    return problems
+

@@ -1,0 +1,90 @@
+"""The modelled sector: the rotor part and the stator part as lists of named regions.
+
+Regions are listed background first; where two regions overlap, the later one wins (a
+barrier over the rotor iron, a slot over the stator iron). The rotor part ends on the
+sliding circle in the middle of the air gap, where the stator part begins.
+"""
+
+from __future__ import annotations
+
+import math
+
+from ..spec import MachineSpec
+from .csg import Shape, annular_sector, cut, rotate
+from .rotor import barrier_shape, post_shape
+from .stator import slot_shapes
+
+__all__ = [
+    "sliding_radius",
+    "slots_in_sector",
+    "poles_in_sector",
+    "rotor_regions",
+    "stator_regions",
+    "slot_region_name",
+]
+
+
+def sliding_radius(spec: MachineSpec) -> float:
+    """Radius of the sliding circle, m: the middle of the air gap."""
+    return spec.rotor_radius + spec.stator.airgap / 2
+
+
+def slots_in_sector(spec: MachineSpec, sector_angle: float) -> int:
+    """Number of stator slots in a sector of ``sector_angle`` rad."""
+    return round(spec.stator.slots * sector_angle / (2 * math.pi))
+
+
+def poles_in_sector(spec: MachineSpec, sector_angle: float) -> int:
+    """Number of rotor poles in a sector of ``sector_angle`` rad."""
+    return round(spec.poles * sector_angle / (2 * math.pi))
+
+
+def slot_region_name(slot: int, layer: int) -> str:
+    """Region name of a winding layer of a slot (slot index from 0 at the sector start)."""
+    return f"slot_{slot}_layer_{layer}"
+
+
+def rotor_regions(spec: MachineSpec, sector_angle: float) -> list[tuple[str, Shape]]:
+    """Rotor part at position 0: the d-axis on the sector start edge (angle 0).
+
+    Pole j has its q-axis at (j + 1/2) * pi/p; barrier i of every pole in the sector is
+    the region ``barrier_{i+1}`` (numbered from the surface inwards).
+    """
+    rotor, r_rotor = spec.rotor, spec.rotor_radius
+    r_shaft = rotor.shaft_diameter / 2
+    regions: list[tuple[str, Shape]] = [
+        ("shaft", annular_sector(0.0, r_shaft, 0.0, sector_angle)),
+        ("rotor_iron", annular_sector(r_shaft, r_rotor, 0.0, sector_angle)),
+        ("airgap_rotor", annular_sector(r_rotor, sliding_radius(spec), 0.0, sector_angle)),
+    ]
+    pole_pitch = 2 * math.pi / spec.poles
+    for i, barrier in enumerate(rotor.barriers):
+        shape = barrier_shape(rotor, r_rotor, barrier, f"rotor.barriers[{i}]")
+        post = post_shape(r_rotor, barrier)
+        if post is not None:
+            shape = cut(shape, post)
+        for j in range(poles_in_sector(spec, sector_angle)):
+            regions.append((f"barrier_{i + 1}", rotate(shape, (j + 0.5) * pole_pitch)))
+    return regions
+
+
+def stator_regions(spec: MachineSpec, sector_angle: float) -> list[tuple[str, Shape]]:
+    """Stator part: air gap beyond the sliding circle, iron, slot openings, winding layers.
+
+    Slot k of the sector has its axis at (k + 1/2) slot pitches from the start edge, so
+    the sector edges pass through tooth centres.
+    """
+    st = spec.stator
+    r_bore, r_out = st.bore_diameter / 2, st.outer_diameter / 2
+    regions: list[tuple[str, Shape]] = [
+        ("airgap_stator", annular_sector(sliding_radius(spec), r_bore, 0.0, sector_angle)),
+        ("stator_iron", annular_sector(r_bore, r_out, 0.0, sector_angle)),
+    ]
+    shapes = slot_shapes(st, spec.winding.layers)
+    pitch = 2 * math.pi / st.slots
+    for k in range(slots_in_sector(spec, sector_angle)):
+        angle = (k + 0.5) * pitch
+        regions.append(("slot_opening", rotate(shapes["opening"], angle)))
+        for layer in range(spec.winding.layers):
+            regions.append((slot_region_name(k, layer), rotate(shapes[f"layer_{layer}"], angle)))
+    return regions
