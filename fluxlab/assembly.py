@@ -260,15 +260,21 @@ def internal_force(data: ElementData, state: FieldState) -> np.ndarray:
 
 def jacobian_values(data: ElementData, state: FieldState) -> np.ndarray:
     """CSR ``data`` of the Jacobian at ``state``, in the fixed pattern ``data.pattern``."""
+    nonlinear = bool(np.any(state.dnu))
+    c = 2.0 * state.dnu * data.weights  # weight of the 2 nu' (gradA.gv_j)(gradA.gv_i) term
     if data.stiffness is not None:  # one-point rule: reuse the precomputed grad.grad
         local = data.stiffness * state.nu[:, 0]
-    else:
-        weighted = data.grad * (state.nu * data.weights)[None, None]
-        local = np.einsum("ikeq,jkeq->ije", weighted, data.grad)
-    if np.any(state.dnu):  # the 2 nu' (gradA.grad v_j)(gradA.grad v_i) term
-        proj = np.einsum("ikeq,keq->ieq", data.grad, state.grad_a)
-        c = 2.0 * state.dnu * data.weights
-        local = local + np.einsum("ieq,jeq,eq->ije", proj, proj, c)
+        if nonlinear:
+            proj = np.einsum("ike,ke->ie", data.grad[..., 0], state.grad_a[..., 0])
+            local += proj[:, None, :] * (proj * c[:, 0])[None, :, :]
+    else:  # per element a (n_local x 2 n_qp) @ (2 n_qp x n_local) product: batched matmul
+        g = data.grad.transpose(2, 0, 1, 3).reshape(data.n_elements, data.grad.shape[0], -1)
+        wn = np.tile(state.nu * data.weights, 2)[:, None, :]  # (n_el, 1, 2 n_qp)
+        local = np.matmul(g * wn, g.transpose(0, 2, 1))
+        if nonlinear:
+            proj = np.einsum("ikeq,keq->eiq", data.grad, state.grad_a)
+            local += np.matmul(proj * c[:, None, :], proj.transpose(0, 2, 1))
+        local = local.transpose(1, 2, 0)  # to the (i, j, element) order of the scatter map
     return np.bincount(data.pattern.scatter, local.ravel(), minlength=data.pattern.nnz)
 
 
