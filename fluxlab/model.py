@@ -1,0 +1,138 @@
+"""The machine model: mesh, materials and winding assembled once per candidate.
+
+A :class:`MachineModel` knows how phase currents become a current density, and the rotor
+step at which the rotor d-axis sits on the phase-a magnetic axis (rotor position zero).
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .geometry import slot_region_name, slots_in_sector
+from .mesh import MachineMesh, build_mesh
+from .solver import FieldProblem, element_areas, make_problem
+from .spec import MachineSpec
+from .winding import WindingLayout, phase_axis_angle, winding_layout
+
+__all__ = ["MachineModel", "build_model", "phase_currents", "current_density", "rotor_step"]
+
+log = logging.getLogger(__name__)
+
+#: Material of each region kind: the region name starts with the key.
+_REGION_MATERIAL = {"stator_iron": "stator", "rotor_iron": "rotor", "shaft": "shaft"}
+
+
+@dataclass(frozen=True, eq=False)
+class MachineModel:
+    """Everything fixed for one candidate machine.
+
+    Attributes
+    ----------
+    spec
+        The machine.
+    mesh
+        The meshed sector.
+    problem
+        The assembled field problem.
+    layout
+        The winding's slot-phase layout.
+    conductor_weight
+        (n_elements, 3): turns per coil side area per parallel path, signed, 1/m^2, for
+        phases a, b, c. The current density is ``conductor_weight @ i_abc`` (A/m^2) and the
+        flux linkage of phase k is ``length * sectors * sum(conductor_weight[:, k] * int A)``.
+    axis_step
+        Rotor step that puts a rotor d-axis on the phase-a axis: rotor position zero.
+    axis_error
+        Mechanical angle, rad, by which ``axis_step`` misses the exact phase-a axis (zero
+        when the axis falls on a step, as for integral-slot windings).
+    """
+
+    spec: MachineSpec
+    mesh: MachineMesh
+    problem: FieldProblem
+    layout: WindingLayout
+    conductor_weight: np.ndarray
+    axis_step: int
+    axis_error: float
+
+    @property
+    def step_angle(self) -> float:
+        """Mechanical angle of one rotor step, rad."""
+        return self.mesh.step_angle
+
+    @property
+    def scale(self) -> float:
+        """Factor from a sector integral per metre to the whole machine: length x sectors."""
+        return self.spec.stack_length * self.mesh.sectors
+
+
+def _element_materials(spec: MachineSpec, machine: MachineMesh):
+    from .materials import AIR
+
+    materials = [AIR, spec.materials["stator"], spec.materials["rotor"], spec.materials["shaft"]]
+    index = {"stator": 1, "rotor": 2, "shaft": 3}
+    element_material = np.zeros(machine.mesh.t.shape[1], dtype=np.int64)  # air by default
+    for name, elements in machine.regions.items():
+        kind = _REGION_MATERIAL.get(name)
+        if kind is not None:
+            element_material[elements] = index[kind]
+    return materials, element_material
+
+
+def _conductor_weight(spec: MachineSpec, machine: MachineMesh, layout, areas) -> np.ndarray:
+    w = spec.winding
+    weight = np.zeros((machine.mesh.t.shape[1], 3))
+    for slot in range(slots_in_sector(spec, machine.sector_angle)):
+        for layer in range(w.layers):
+            elements = machine.regions[slot_region_name(slot, layer)]
+            side_area = areas[elements].sum()
+            phase, sign = layout.phase[layer, slot], layout.sign[layer, slot]
+            weight[elements, phase] = sign * w.turns_per_coil / (side_area * w.parallel_paths)
+    return weight
+
+
+def build_model(spec: MachineSpec, mesh: MachineMesh | None = None) -> MachineModel:
+    """Mesh (unless given) and assemble a machine once, for any current and rotor step."""
+    machine = build_mesh(spec) if mesh is None else mesh
+    materials, element_material = _element_materials(spec, machine)
+    problem = make_problem(machine, materials, element_material, order=spec.mesh.element_order)
+    layout = winding_layout(
+        spec.stator.slots, spec.poles, spec.winding.layers, spec.winding.coil_pitch_slots
+    )
+    weight = _conductor_weight(spec, machine, layout, element_areas(problem))
+    # rotor d-axes repeat every pole pitch; the rotor frame has one on angle 0
+    pole_pitch = 2 * math.pi / spec.poles
+    axis = phase_axis_angle(layout) % pole_pitch
+    axis_step = round(axis / machine.step_angle)
+    axis_error = axis - axis_step * machine.step_angle
+    if abs(axis_error) > 1e-9:
+        log.warning("phase-a axis %.4f deg is %.4f deg off the nearest rotor step",
+                    math.degrees(axis), math.degrees(axis_error))
+    return MachineModel(spec, machine, problem, layout, weight, axis_step, axis_error)
+
+
+def rotor_step(model: MachineModel, position: float) -> int:
+    """Rotor step of a mechanical rotor position (rad from position zero), rounded."""
+    return model.axis_step + round(position / model.step_angle)
+
+
+def phase_currents(current_peak: float, current_angle: float, electrical_angle: float):
+    """Phase currents a, b, c (A) of a dq current by the inverse Park transform.
+
+    Amplitude-invariant transform; ``current_angle`` gamma from the d-axis
+    (id = I cos gamma, iq = I sin gamma); ``electrical_angle`` = p * rotor position, rad.
+    Phase k's axis leads phase a's by k * 120 electrical degrees.
+    """
+    i_d = current_peak * math.cos(current_angle)
+    i_q = current_peak * math.sin(current_angle)
+    shifts = electrical_angle - np.arange(3) * 2 * math.pi / 3
+    return i_d * np.cos(shifts) - i_q * np.sin(shifts)
+
+
+def current_density(model: MachineModel, i_abc: np.ndarray) -> np.ndarray:
+    """Current density per element, A/m^2, +z out of the page, for phase currents in A."""
+    return model.conductor_weight @ np.asarray(i_abc, dtype=float)
