@@ -83,7 +83,12 @@ def _body(stator: StatorSpec, s: SlotOutline) -> Shape:
     ]
     body = polygon(corners)
     if s.round_radius > 0:
-        return union(body, disk(s.round_centre, 0.0, s.round_radius))
+        # Only the cap beyond the sides' end belongs to the slot: in a slot shallower than
+        # its width the whole disk would reach back through the tooth tips into the gap.
+        far = 2 * s.x_bottom
+        beyond = polygon([(s.x_side_end, -far), (far, -far), (far, far), (s.x_side_end, far)])
+        cap = intersect(disk(s.round_centre, 0.0, s.round_radius), beyond)
+        return union(body, cap)
     f = stator.bottom_fillet
     if f <= 0:
         return body
