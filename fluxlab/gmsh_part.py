@@ -84,17 +84,25 @@ def _classify(sector_angle: float, r_slide: float, r_outer: float | None) -> dic
     scale = r_slide
     names: dict[str, list] = {"sliding": [], "outer": [], "edge_start": [], "edge_end": []}
     boundary = gmsh.model.getBoundary(gmsh.model.getEntities(2), combined=True, oriented=False)
-    normal_end = np.array([-math.sin(sector_angle), math.cos(sector_angle)])
+    tol = _REL_TOL * scale
+
+    def on_ray(pts: np.ndarray, angle: float) -> bool:
+        # on the ray from the origin at ``angle``, not merely on its line: the two edges of a
+        # half-machine sector (angle pi) lie on the same line, on either side of the origin
+        along = pts @ np.array([math.cos(angle), math.sin(angle)])
+        across = pts @ np.array([-math.sin(angle), math.cos(angle)])
+        return bool(np.all(abs(across) < tol) and np.all(along > -tol))
+
     for _, tag in boundary:
         pts = _curve_points(abs(tag))
         radius = np.hypot(pts[:, 0], pts[:, 1])
-        if np.all(abs(radius - r_slide) < _REL_TOL * scale):
+        if np.all(abs(radius - r_slide) < tol):
             names["sliding"].append(abs(tag))
-        elif r_outer is not None and np.all(abs(radius - r_outer) < _REL_TOL * scale):
+        elif r_outer is not None and np.all(abs(radius - r_outer) < tol):
             names["outer"].append(abs(tag))
-        elif np.all(abs(pts[:, 1]) < _REL_TOL * scale):
+        elif on_ray(pts, 0.0):
             names["edge_start"].append(abs(tag))
-        elif np.all(abs(pts @ normal_end) < _REL_TOL * scale):
+        elif on_ray(pts, sector_angle):
             names["edge_end"].append(abs(tag))
         else:
             raise MeshError(f"a boundary curve of the part lies on no known boundary: {pts}")
