@@ -5,7 +5,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.fluxlab-installed
 
-.PHONY: demo test test-all clean
+.PHONY: demo test test-slow test-all clean
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -13,10 +13,13 @@ $(STAMP): pyproject.toml
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/fluxlab mesh geometries/demo_fan_drive.toml --out out/demo
+	$(BIN)/fluxlab evaluate geometries/demo_fan_drive.toml --out out/demo
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -q
+
+test-slow: $(STAMP)
+	$(BIN)/python -m pytest -q -m slow
 
 test-all: $(STAMP)
 	$(BIN)/python -m pytest -q -m ''

@@ -97,6 +97,7 @@ def plot_mesh(machine: MachineMesh, ax=None, edges: bool = True, labels: bool = 
         PolyCollection(
             p_mm[t], facecolors=list(colours),
             edgecolors="#33333340" if edges else "face", linewidths=0.15 if edges else 0.0,
+            rasterized=True,  # tens of thousands of polygons: keep vector files small
         )
     )
     if labels:

@@ -1,0 +1,106 @@
+"""Evaluate a candidate: Ld, Lq, saliency, torque ripple, torque vs current angle, sheet."""
+
+from __future__ import annotations
+
+import json
+import math
+import shutil
+from pathlib import Path
+
+from ..evaluate import StudySettings, evaluate
+from ..spec import load_machine
+from .progress import Progress
+
+__all__ = ["add_args", "run", "write_evaluation"]
+
+
+def add_args(parser) -> None:
+    parser.add_argument("machine", help="machine file (TOML)")
+    parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--studies", choices=("full", "point"), default="full",
+                        help="full evaluation (default) or the rated point only")
+    parser.add_argument("--angle-step-deg", type=float, default=10.0,
+                        help="grid step of the current-angle study (default 10)")
+    parser.add_argument("--angle-positions", type=int, default=4,
+                        help="rotor positions averaged per current angle (default 4)")
+
+
+def _save(fig, out: Path, stem: str, written: list) -> None:
+    for suffix in ("png", "svg"):
+        fig.savefig(out / f"{stem}.{suffix}", dpi=170)
+        written.append(out / f"{stem}.{suffix}")
+
+
+def write_evaluation(evaluation, out: Path, machine_file: Path | None = None) -> list[Path]:
+    """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
+    from ..plots_field import plot_field
+    from ..plots_winding import plot_winding_layout
+    from ..report import CAUTION, write_review_sheet
+    from ..tables import evaluation_tables, write_csv
+
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    summary = {**evaluation.summary, "caution": CAUTION}
+    (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
+    written.append(out / "summary.json")
+    if machine_file is not None:
+        shutil.copyfile(machine_file, out / "machine.toml")
+        written.append(out / "machine.toml")
+    for stem, columns in evaluation_tables(evaluation).items():
+        written.append(write_csv(out / f"{stem}.csv", columns))
+    plots = [
+        ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
+        ("torque_vs_current_angle", evaluation.torque_vs_angle or None, plot_torque_vs_angle),
+        ("inductance_vs_current", evaluation.inductances, plot_inductances),
+    ]
+    for stem, data, plot in plots:
+        if data is not None:
+            fig, ax = plt.subplots(figsize=(7, 4.3))
+            plot(data, ax=ax)
+            fig.tight_layout()
+            _save(fig, out, stem, written)
+            plt.close(fig)
+    fig, ax = plt.subplots(figsize=(8, 7.5))
+    plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)
+    s = evaluation.summary
+    ax.set_title(f"Field at the rated point: {s['current_peak_A']:g} A peak, "
+                 f"γ = {s['current_angle_deg']:.1f} deg, rotor position 0", fontsize=10)
+    fig.tight_layout()
+    _save(fig, out, "field_rated", written)
+    plt.close(fig)
+    fig, ax = plt.subplots(figsize=(11, 3.2))
+    plot_winding_layout(evaluation.model.layout, ax=ax)
+    fig.tight_layout()
+    _save(fig, out, "winding_layout", written)
+    plt.close(fig)
+    written.append(write_review_sheet(evaluation, out / "review.pdf",
+                                      evaluation.rated_point.solution))
+    return written
+
+
+def run(args) -> int:
+    spec = load_machine(args.machine)
+    settings = StudySettings(studies=args.studies, angle_step_deg=args.angle_step_deg,
+                             angle_positions=args.angle_positions)
+    progress = Progress()
+    evaluation = evaluate(spec, settings, progress=progress)
+    progress("writing tables, figures and review.pdf")
+    written = write_evaluation(evaluation, Path(args.out), Path(args.machine))
+    progress.done()
+    s = evaluation.summary
+    print(f"{spec.name}: Ld {s['Ld_H'] * 1e3:.2f} mH, Lq {s['Lq_H'] * 1e3:.2f} mH, "
+          f"saliency {s['saliency_ratio']:.2f}, torque {s['torque_mean_Nm']:.2f} N·m, "
+          + (f"ripple {s['torque_ripple_pct']:.1f} %, " if s["torque_ripple_pct"] else "")
+          + (f"MTPA {s['mtpa_angle_deg']:.1f} deg, " if s["mtpa_angle_deg"] else "")
+          + f"power factor {s['power_factor']:.3f} at {s['current_peak_A']:g} A peak, "
+          f"γ {s['current_angle_deg']:.1f} deg")
+    if not math.isfinite(s["saliency_ratio"]):
+        print("note: Ld or Lq undefined at a current angle of 0 or 90 deg")
+    print(f"wrote {len(written)} files to {args.out}")
+    return 0

@@ -1,0 +1,110 @@
+"""The one-page review sheet of an evaluation (PDF), for a design review."""
+
+from __future__ import annotations
+
+import datetime
+import math
+from pathlib import Path
+
+from .evaluate import Evaluation
+
+__all__ = ["CAUTION", "key_figures", "write_review_sheet"]
+
+CAUTION = (
+    "Design estimate of a 2-D magnetostatic model: no end effects, no skew, no eddy currents, "
+    "no thermal or mechanical analysis. A machine built from these figures must be checked by "
+    "structural (rotor ribs at overspeed), thermal and electrical analysis and by test, under "
+    "the applicable standards and local codes, by qualified engineers."
+)
+
+
+def _fmt(value, digits=4) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "n/a"
+    return f"{value:.{digits}g}"
+
+
+def key_figures(summary: dict) -> list[tuple[str, str]]:
+    """(quantity with unit, value) rows of the key figures of a summary."""
+    rows = [
+        ("rated current (A peak)", _fmt(summary["current_peak_A"])),
+        ("current angle γ from d-axis (deg)", _fmt(summary["current_angle_deg"])),
+        ("ψd / ψq (Wb, peak)", f"{_fmt(summary['psi_d_Wb'])} / {_fmt(summary['psi_q_Wb'])}"),
+        ("Ld / Lq apparent (mH)",
+         f"{_fmt(summary['Ld_H'] * 1e3)} / {_fmt(summary['Lq_H'] * 1e3)}"),
+        ("saliency ratio Ld/Lq", _fmt(summary["saliency_ratio"])),
+        ("mean torque, Maxwell stress (N·m)", _fmt(summary["torque_mean_Nm"])),
+        ("mean torque, 3/2 p (ψd iq − ψq id) (N·m)", _fmt(summary["torque_dq_Nm"])),
+        ("torque ripple (% peak-to-peak of mean)", _fmt(summary["torque_ripple_pct"], 3)),
+        ("power factor (resistance neglected)", _fmt(summary["power_factor"], 3)),
+        ("MTPA angle at rated current (deg)", _fmt(summary["mtpa_angle_deg"], 3)),
+    ]
+    if summary.get("overload_current_peak_A"):
+        rows.append((f"MTPA at overload {summary['overload_current_peak_A']:g} A: deg, N·m",
+                     f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}, "
+                     f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
+    rows += [
+        ("peak |B| in the model (T)", _fmt(summary["b_max_T"], 3)),
+        ("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"),
+    ]
+    return rows
+
+
+def _table(ax, rows) -> None:
+    ax.axis("off")
+    table = ax.table(cellText=[list(r) for r in rows], colLabels=["quantity", "value"],
+                     colWidths=[0.7, 0.3], loc="upper center", cellLoc="left")
+    table.auto_set_font_size(False)
+    table.set_fontsize(7)
+    table.scale(1.08, 1.22)
+
+
+def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None) -> Path:
+    """Write the A4 landscape review sheet of ``evaluation`` to ``path`` (PDF)."""
+    import matplotlib.pyplot as plt
+
+    from .plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
+    from .plots_field import plot_outline
+
+    spec, summary = evaluation.spec, evaluation.summary
+    fig = plt.figure(figsize=(11.69, 8.27))
+    grid = fig.add_gridspec(2, 3, left=0.05, right=0.96, top=0.86, bottom=0.12,
+                            wspace=0.34, hspace=0.36, width_ratios=[1.0, 1.15, 1.15])
+    fig.suptitle(f"fluxlab review sheet: {spec.name}", fontsize=14, x=0.05, ha="left")
+    fig.text(0.05, 0.915,
+             f"{spec.poles} poles, {spec.stator.slots} slots, {len(spec.rotor.barriers)} "
+             f"{spec.rotor.barrier_shape} barrier(s) per pole, stack {spec.stack_length * 1e3:g} "
+             f"mm, rotor steel {spec.materials['rotor'].name}.   fluxlab "
+             f"{summary['fluxlab_version']}, {datetime.date.today().isoformat()}\n"
+             "Currents are peak phase amperes; current angle from the d-axis (least reluctance); "
+             "saliency ratio = Ld/Lq; amplitude-invariant Park transform; counter-clockwise "
+             "positive.", fontsize=8, va="bottom")
+    ax = fig.add_subplot(grid[0, 0])
+    plot_outline(spec, ax=ax, full=True)
+    ax.set_title("cross-section (mm)", fontsize=9)
+    _table(fig.add_subplot(grid[0, 1]), key_figures(summary))
+    curves = [
+        (evaluation.torque_vs_position, plot_torque_vs_position, grid[0, 2],
+         "Torque vs rotor position at the rated point"),
+        (evaluation.torque_vs_angle or None, plot_torque_vs_angle, grid[1, 0],
+         "Mean torque vs current angle"),
+        (evaluation.inductances, plot_inductances, grid[1, 1],
+         "Saturation: apparent Ld, Lq vs current"),
+    ]
+    for data, plot, cell, title in curves:
+        if data is not None:
+            plot(data, ax=fig.add_subplot(cell)).set_title(title)
+    if field_solution is not None:
+        from .plots_field import plot_field
+
+        plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
+            "Field at the rated point, position 0")
+    for a in fig.axes:
+        a.title.set_fontsize(9)
+        a.tick_params(labelsize=7)
+        a.xaxis.label.set_fontsize(8)
+        a.yaxis.label.set_fontsize(8)
+    fig.text(0.05, 0.03, "Caution: " + CAUTION, fontsize=7.5, wrap=True, va="bottom")
+    fig.savefig(path)
+    plt.close(fig)
+    return path

@@ -1,0 +1,60 @@
+"""CSV tables of evaluation curves, units in the column names."""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import numpy as np
+
+from .evaluate import Evaluation
+
+__all__ = ["write_csv", "evaluation_tables"]
+
+
+def write_csv(path: Path, columns: dict[str, np.ndarray]) -> Path:
+    """Write equal-length columns to ``path``; keys are the header (with units)."""
+    names = list(columns)
+    rows = np.column_stack([np.asarray(columns[n], dtype=float) for n in names])
+    with path.open("w", newline="") as f:
+        writer = csv.writer(f)
+        writer.writerow(names)
+        writer.writerows([[f"{v:.10g}" for v in row] for row in rows])
+    return path
+
+
+def evaluation_tables(evaluation: Evaluation) -> dict[str, dict[str, np.ndarray]]:
+    """Every curve of an evaluation as named tables (file stem -> columns)."""
+    tables = {}
+    r = evaluation.torque_vs_position
+    if r is not None:
+        tables["torque_vs_position"] = {
+            "position_deg": r.position_deg,
+            "torque_Nm": r.torque_Nm,
+            "torque_dq_Nm": r.torque_dq_Nm,
+            "psi_d_Wb": r.psi_d_Wb,
+            "psi_q_Wb": r.psi_q_Wb,
+            "newton_iterations": r.iterations,
+        }
+        tables["torque_harmonics"] = {
+            "order_per_electrical_period": r.harmonic_orders,
+            "amplitude_Nm": r.harmonic_amplitudes_Nm,
+        }
+    rows = [(s.current_peak_A, a, t, td, pd, pq, pf) for s in evaluation.torque_vs_angle
+            for a, t, td, pd, pq, pf in zip(s.current_angle_deg, s.torque_Nm, s.torque_dq_Nm,
+                                            s.psi_d_Wb, s.psi_q_Wb, s.power_factor)]
+    if rows:
+        cols = np.array(rows).T
+        tables["torque_vs_current_angle"] = dict(zip(
+            ["current_peak_A", "current_angle_deg", "torque_Nm", "torque_dq_Nm", "psi_d_Wb",
+             "psi_q_Wb", "power_factor"], cols))
+    c = evaluation.inductances
+    if c is not None:
+        tables["inductance_vs_current"] = {
+            "current_peak_A": c.current_peak_A,
+            "psi_d_Wb": c.psi_d_Wb,
+            "psi_q_Wb": c.psi_q_Wb,
+            "Ld_H": c.L_d_H,
+            "Lq_H": c.L_q_H,
+        }
+    return tables
