@@ -1,0 +1,134 @@
+"""Run a sweep: resolve candidates, skip stored ones, evaluate the rest, store each result.
+
+The parent process is the only writer of the store: results are written one transaction
+each, as they arrive from the executor, so a sweep stopped in any way (Ctrl-C, SIGKILL, a
+lost machine) keeps every finished candidate and resumes by running the same command again.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Callable
+from pathlib import Path
+
+from ..errors import SpecError
+from .candidates import DEFAULT_EVALUATOR, Candidate, make_candidates
+from .executors import DaskExecutor, Executor, LocalPoolExecutor
+from .progress import ProgressBar
+from .store import STORE_NAME, ResultStore
+from .sweepfile import SweepSpec, load_sweep
+from .table import results_table, write_results_csv
+from .worker import evaluate_task, resolve_evaluator
+
+__all__ = ["run_sweep", "evaluator_reference", "RESULTS_CSV"]
+
+log = logging.getLogger(__name__)
+RESULTS_CSV = "results.csv"
+
+
+def evaluator_reference(evaluator: str | Callable | None, sweep: SweepSpec) -> str:
+    """The ``"module:function"`` name of the evaluator to use (the argument, the sweep
+    file's ``evaluator`` testing hook, or :func:`fluxlab.evaluate.evaluate`)."""
+    if evaluator is None:
+        return sweep.evaluator or DEFAULT_EVALUATOR
+    if isinstance(evaluator, str):
+        return evaluator
+    ref = f"{evaluator.__module__}:{evaluator.__qualname__}"
+    try:  # worker processes import it by name, so it must be a top-level function
+        ok = resolve_evaluator(ref) is evaluator
+    except (ImportError, AttributeError):
+        ok = False
+    if not ok:
+        raise SpecError(f"evaluator = {evaluator!r}: must be a function importable as "
+                        "module:function (worker processes import it by name)")
+    return ref
+
+
+def _executor(workers: int | None, scheduler) -> Executor:
+    return LocalPoolExecutor(workers) if scheduler is None else DaskExecutor(scheduler)
+
+
+def _to_run(candidates: list[Candidate], stored: dict[str, str],
+            retry_failed: bool) -> list[Candidate]:
+    skip = {"done", "rejected"} if retry_failed else {"done", "rejected", "failed"}
+    unique = {c.key: c for c in reversed(candidates)}  # the first candidate of each key
+    return [c for c in candidates if unique[c.key] is c and stored.get(c.key) not in skip]
+
+
+def _evaluate(todo: list[Candidate], store: ResultStore, sweep: SweepSpec, ref: str,
+              executor: Executor, bar: ProgressBar | None) -> None:
+    by_key = {c.key: c for c in todo}
+    tasks = ({"key": c.key, "machine": c.machine, "base_dir": str(sweep.base_dir),
+              "studies": sweep.studies, "evaluator": ref} for c in todo)
+    with executor:
+        for result in executor.results(evaluate_task, tasks):
+            cand = by_key[result["key"]]
+            store.put(cand.key, result["status"], studies=sweep.studies,
+                      parameters=cand.values, machine=cand.machine,
+                      summary=result["summary"], curves=result["curves"],
+                      message=result["message"], elapsed_s=result["elapsed_s"])
+            if result["status"] != "done":
+                log.info("candidate %d %s: %s", cand.number, result["status"],
+                         result["message"].splitlines()[0] if result["message"] else "")
+            if bar is not None:
+                bar.update(result["status"])
+
+
+def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int | None = None,
+              scheduler=None, retry_failed: bool = False,
+              evaluator: str | Callable | None = None, progress: bool = False) -> list[dict]:
+    """Evaluate every candidate of a sweep not yet stored in ``out_dir``; return the table.
+
+    Parameters
+    ----------
+    sweep
+        A sweep file path or a :class:`SweepSpec`.
+    out_dir
+        Output folder: holds the store ``results.sqlite`` and ``results.csv``.
+    workers
+        Local worker processes (default ``os.cpu_count()``); ignored with ``scheduler``.
+    scheduler
+        A Dask distributed scheduler address (or ``distributed.Client``) to run on instead.
+    retry_failed
+        Evaluate again the candidates stored as failed (rejected ones are never retried:
+        their machine file is invalid, which a rerun cannot change).
+    evaluator
+        Testing hook: the evaluation function, or its ``"module:function"`` name;
+        default the sweep file's ``evaluator`` or :func:`fluxlab.evaluate.evaluate`.
+    progress
+        Draw a progress bar on stderr.
+
+    Returns
+    -------
+    list of dict
+        One row per candidate in plan order (see :mod:`fluxlab.sweep.table`).
+
+    Raises
+    ------
+    SpecError
+        The sweep file is invalid.
+    KeyboardInterrupt
+        On Ctrl-C, after cancelling what had not finished; finished results stay stored and
+        ``results.csv`` lists the rest as pending.
+    """
+    if not isinstance(sweep, SweepSpec):
+        sweep = load_sweep(sweep)
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    ref = evaluator_reference(evaluator, sweep)
+    candidates = make_candidates(sweep, ref)
+    with ResultStore(out / STORE_NAME) as store:
+        todo = _to_run(candidates, store.statuses(), retry_failed)
+        log.info("%s: %d candidates, %d distinct, %d to evaluate", sweep.name, len(candidates),
+                 len({c.key for c in candidates}), len(todo))
+        bar = ProgressBar(len(todo)) if progress and todo else None
+        try:
+            if todo:
+                _evaluate(todo, store, sweep, ref, _executor(workers, scheduler), bar)
+        finally:
+            if bar is not None:
+                bar.close()
+            stored = {r.key: r for r in store.results()}
+            table = results_table(candidates, stored)
+            write_results_csv(table, out / RESULTS_CSV)
+    return table

@@ -1,0 +1,114 @@
+"""Testing hook: a fake, deterministic evaluator with the shape of the real one.
+
+Select it with ``evaluator = "fluxlab.sweep.testing:fake_evaluate"`` in a sweep file (or
+``run_sweep(..., evaluator=...)``). Its numbers are made up from simple closed-form
+expressions of the rotor dimensions: they are for testing the sweep machinery (storage,
+resuming, executors, plots) and never a model of a machine.
+
+Environment variables, read at each call:
+
+``FLUXLAB_FAKE_EVAL_DELAY_S``
+    Sleep this long per candidate, s (makes a sweep slow enough to interrupt).
+``FLUXLAB_FAKE_EVAL_WORK``
+    Factorise a sparse 2-D Laplacian (about 40k unknowns) this many times per candidate:
+    CPU work for measuring parallel speed-up.
+
+A candidate with ``operating.speed_rpm >= 99999`` raises :class:`ConvergenceError`, to test
+failures (the speed changes nothing else here).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import ConvergenceError
+
+__all__ = ["FAIL_SPEED_RPM", "FakeCurve", "FakeEvaluation", "fake_evaluate", "fake_summary"]
+
+FAIL_SPEED_RPM = 99999.0
+
+
+@dataclass(frozen=True)
+class FakeCurve:
+    """Torque samples: ``position_deg`` or ``current_angle_deg`` and ``torque_Nm``."""
+
+    torque_Nm: np.ndarray
+    position_deg: np.ndarray | None = None
+    current_angle_deg: np.ndarray | None = None
+
+
+@dataclass(frozen=True)
+class FakeEvaluation:
+    """What :func:`fake_evaluate` returns: the attributes a sweep reads."""
+
+    summary: dict
+    torque_vs_position: FakeCurve | None
+    torque_vs_current_angle: FakeCurve | None
+
+
+def _burn(rounds: int) -> None:
+    from scipy import sparse
+    from scipy.sparse.linalg import splu
+
+    if rounds <= 0:
+        return
+    n = 200
+    lap = sparse.diags([-1.0, 2.0, -1.0], [-1, 0, 1], shape=(n, n))
+    k = (sparse.kron(lap, sparse.eye(n)) + sparse.kron(sparse.eye(n), lap)).tocsc()
+    for _ in range(rounds):
+        splu(k)
+
+
+def fake_summary(spec, studies: str) -> dict:
+    """The made-up summary of a machine (see the module docstring)."""
+    from .. import __version__
+
+    widths_mm = sum(b.width for b in spec.rotor.barriers) * 1e3
+    ends_deg = sum(math.degrees(b.end_angle) for b in spec.rotor.barriers)
+    saliency = 1.0 + 0.35 * widths_mm
+    ld = 0.04 * (1.0 + 0.005 * (ends_deg - 72.0))  # wider barrier ends: more d-axis flux
+    lq = ld / saliency
+    current = spec.operating.current_peak_A
+    gamma = spec.operating.current_angle or math.radians(45.0)
+    i_d, i_q = current * math.cos(gamma), current * math.sin(gamma)
+    torque = 1.5 * spec.pole_pairs * (ld - lq) * i_d * i_q
+    phi = math.atan2(lq * i_q, ld * i_d) + math.pi / 2 - gamma  # voltage leads flux by 90 deg
+    slot_pitch_deg = 360.0 / spec.stator.slots
+    summary = {
+        "Ld_H": ld, "Lq_H": lq, "saliency_ratio": saliency, "torque_mean_Nm": torque,
+        "torque_ripple_pct": None, "mtpa_angle_deg": None, "power_factor": math.cos(phi),
+        "current_peak_A": current, "current_angle_deg": math.degrees(gamma),
+        "nodes": int(20000 * (3e-3 / spec.mesh.size) ** 2), "fluxlab_version": __version__,
+    }
+    if studies == "full":
+        summary["torque_ripple_pct"] = 4.0 + 20.0 * abs(math.sin(math.pi * ends_deg
+                                                                 / slot_pitch_deg))
+        summary["mtpa_angle_deg"] = 45.0 + 0.5 * saliency
+    return summary
+
+
+def fake_evaluate(spec, studies: str = "point") -> FakeEvaluation:
+    """Fake evaluation of ``spec`` (``studies`` "point" or "full"); deterministic."""
+    delay = float(os.environ.get("FLUXLAB_FAKE_EVAL_DELAY_S", "0") or 0)
+    if delay > 0:
+        time.sleep(delay)
+    _burn(int(os.environ.get("FLUXLAB_FAKE_EVAL_WORK", "0") or 0))
+    if spec.operating.speed_rpm >= FAIL_SPEED_RPM:
+        raise ConvergenceError(f"fake solver: operating.speed_rpm = "
+                               f"{spec.operating.speed_rpm} >= {FAIL_SPEED_RPM}")
+    summary = fake_summary(spec, studies)
+    if studies != "full":
+        return FakeEvaluation(summary, None, None)
+    mean, ripple = summary["torque_mean_Nm"], summary["torque_ripple_pct"]
+    position = np.linspace(0.0, 360.0 / spec.stator.slots, 25)
+    wave = np.sin(2 * np.pi * position * spec.stator.slots / 360.0)
+    by_position = FakeCurve(mean * (1 + ripple / 200 * wave), position_deg=position)
+    angle = np.linspace(0.0, 90.0, 19)
+    peak = mean / max(math.sin(2 * math.radians(summary["current_angle_deg"])), 0.1)
+    by_angle = FakeCurve(peak * np.sin(2 * np.radians(angle)), current_angle_deg=angle)
+    return FakeEvaluation(summary, by_position, by_angle)
