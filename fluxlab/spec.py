@@ -1,7 +1,8 @@
 """The machine file: schema, loading and validation into an immutable spec in SI units.
 
 A machine file is TOML with the sections ``machine``, ``stator``, ``winding``, ``rotor``
-(with an array of ``rotor.barriers`` tables), ``materials``, ``mesh`` and ``operating``.
+(with an array of ``rotor.barriers`` tables), ``materials``, ``mesh``, ``operating`` and the
+optional ``drive`` (inverter limits and operating-envelope settings).
 Lengths are in mm and angles in degrees, the unit in each key name; the spec holds metres
 and radians. Every problem found in a file is reported together in one :class:`SpecError`.
 """
@@ -30,6 +31,7 @@ __all__ = [
     "RotorSpec",
     "MeshSpec",
     "OperatingSpec",
+    "DriveSpec",
     "MachineSpec",
     "load_machine",
     "machine_from_dict",
@@ -87,8 +89,20 @@ OPERATING_KEYS = (
     Key("overload_current_peak_A", float, default=None, low=0, low_open=True),
     Key("speed_rpm", float, default=1500.0, low=0, low_open=True),
 )
+DRIVE_KEYS = (
+    Key("dc_link_voltage_V", float, default=565.0, low=0, low_open=True, high=100000),
+    Key("modulation_limit", float, default=1.0, low=0, low_open=True, high=1.0),
+    Key("max_speed_rpm", float, default=None, low=0, low_open=True, high=500000),
+    Key("current_limit_peak_A", float, default=None, low=0, low_open=True),
+    Key("copper_temperature_C", float, default=115.0, low=-60, high=250),
+    Key("end_winding_length_mm", float, default=None, scale=MM, low=0, low_open=True),
+    Key("flux_map_points", int, default=9, low=2, high=101),
+    Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
+    Key("flux_map_positions", int, default=1, low=1, high=64),
+    Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
+)
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
-SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating")
+SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating", "drive")
 MAX_BARRIERS = 5
 
 
@@ -169,6 +183,31 @@ class OperatingSpec:
 
 
 @dataclass(frozen=True)
+class DriveSpec:
+    """Inverter limits and operating-envelope settings (section ``drive``, optional).
+
+    ``dc_link_voltage_V``, V; ``modulation_limit`` m in (0, 1]: peak phase voltage
+    m V_dc / sqrt(3) (space-vector modulation); ``max_speed_rpm`` (None: twice the rated
+    speed); ``current_limit_peak_A``, peak phase A (None: the overload current, else the
+    rated); ``copper_temperature_C``; ``end_winding_length``, m per coil end (None: estimated);
+    ``flux_map_points`` per axis, from 0 to ``flux_map_max_current_peak_A`` (None: the current
+    limit), averaged over ``flux_map_positions`` rotor positions; ``rib_safety_factor`` on the
+    rotor steel's yield strength.
+    """
+
+    dc_link_voltage_V: float = 565.0
+    modulation_limit: float = 1.0
+    max_speed_rpm: float | None = None
+    current_limit_peak_A: float | None = None
+    copper_temperature_C: float = 115.0
+    end_winding_length: float | None = None
+    flux_map_points: int = 9
+    flux_map_max_current_peak_A: float | None = None
+    flux_map_positions: int = 1
+    rib_safety_factor: float = 1.5
+
+
+@dataclass(frozen=True)
 class MachineSpec:
     """A validated machine, SI units. ``raw`` keeps the file's own table (mm, deg)."""
 
@@ -183,6 +222,7 @@ class MachineSpec:
     operating: OperatingSpec
     raw: dict = field(repr=False, compare=False)
     base_dir: Path = field(default=Path("."), repr=False, compare=False)
+    drive: DriveSpec = field(default_factory=DriveSpec)
 
     @property
     def pole_pairs(self) -> int:
@@ -292,6 +332,13 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
             f"operating.overload_current_peak_A = {op.overload_current_peak_A}: must exceed "
             f"operating.current_peak_A = {op.current_peak_A}"
         )
+    dr = spec.drive
+    limit = dr.current_limit_peak_A or op.overload_current_peak_A or op.current_peak_A
+    if dr.flux_map_max_current_peak_A is not None and dr.flux_map_max_current_peak_A < limit:
+        problems.append(
+            f"drive.flux_map_max_current_peak_A = {dr.flux_map_max_current_peak_A}: must be at "
+            f"least the current limit {limit} A (the maps must cover the current circle)"
+        )
 
 
 def _mm(value: float | None) -> float | None:
@@ -321,6 +368,7 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         ("winding", WINDING_KEYS),
         ("mesh", MESH_KEYS),
         ("operating", OPERATING_KEYS),
+        ("drive", DRIVE_KEYS),
     ):
         sections[name] = read_section(raw.get(name, {}), name, keys, problems)
     rotor_raw = raw.get("rotor", {})
@@ -353,6 +401,8 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         ),
         raw=copy.deepcopy(raw),
         base_dir=base_dir,
+        drive=DriveSpec(**{("max_speed_rpm" if k == "max_speed" else k): v
+                           for k, v in sections["drive"].items()}),
     )
     _cross_checks(spec, problems)
     problems.extend(_winding_problems(spec))
