@@ -128,6 +128,33 @@ def ripple_means(ripple: TorqueVsPosition) -> tuple[float, float]:
     return float(ripple.psi_d_Wb.mean()), float(ripple.psi_q_Wb.mean())
 
 
+def _ripple_task(model, current, angle):
+    return torque_vs_position(model, current, angle)
+
+
+def _point_task(model, current, angle, positions):
+    from .studies import ripple_steps
+
+    return torque_vs_position(model, current, angle, ripple_steps(model, positions))
+
+
+def _full_tasks(spec, settings, angle) -> list:
+    op = spec.operating
+    tasks = []
+    for label, current in (("overload", op.overload_current_peak_A),
+                           ("rated", op.current_peak_A)):
+        if current is not None:
+            tasks.append((f"torque vs current angle, {label}", torque_vs_current_angle,
+                          (current, settings.angle_step_deg, settings.angle_positions)))
+    if angle is not None:
+        tasks.append(("torque vs position", _ripple_task, (op.current_peak_A, angle)))
+    currents = op.current_peak_A * np.linspace(
+        settings.inductance_min_fraction, settings.inductance_max_fraction,
+        settings.inductance_points)
+    tasks.append(("inductance curves", inductance_curves, (currents,)))
+    return tasks
+
+
 def evaluate(
     spec: MachineSpec,
     settings: StudySettings | None = None,
@@ -135,46 +162,43 @@ def evaluate(
     studies: str | None = None,
     progress: Callable[[str], None] | None = None,
     model: MachineModel | None = None,
+    workers: int = 1,
 ) -> Evaluation:
     """Evaluate a candidate: model once, then the studies (see :class:`StudySettings`).
 
     The rated point uses ``operating.current_peak_A`` at ``operating.current_angle_deg``, or
-    at the MTPA angle of the rated-current study when the angle is not given.
+    at the MTPA angle of the rated-current study when the angle is not given. ``workers``
+    > 1 runs the independent studies in that many processes (leave it at 1 inside a sweep
+    that already uses the cores).
     """
+    from .study_pool import run_tasks
+
     settings = settings or StudySettings(**({"studies": studies} if studies else {}))
     say = progress or (lambda message: None)
     start = time.perf_counter()
-    timings = {}
     say("meshing and assembling")
     model = model or build_model(spec)
-    timings["model"] = time.perf_counter() - start
+    timings = {"model": time.perf_counter() - start}
     op = spec.operating
-    angle_studies: list[TorqueVsAngle] = []
-    ripple = curves = None
-    if settings.studies == "full":
-        for current in (op.current_peak_A, op.overload_current_peak_A):
-            if current is not None:
-                angle_studies.append(torque_vs_current_angle(
-                    model, current, settings.angle_step_deg, settings.angle_positions, say))
-        timings["current_angle"] = time.perf_counter() - start - sum(timings.values())
     angle = op.current_angle
-    if angle is None:
-        angle = math.radians(angle_studies[0].mtpa_angle_deg) if angle_studies else math.pi / 4
-    if settings.studies == "full":
-        ripple, points = torque_vs_position(model, op.current_peak_A, angle, progress=say)
-        point = points[0]
-        timings["ripple"] = time.perf_counter() - start - sum(timings.values())
-        currents = op.current_peak_A * np.linspace(
-            settings.inductance_min_fraction, settings.inductance_max_fraction,
-            settings.inductance_points)
-        curves = inductance_curves(model, currents, say)
-        timings["inductance"] = time.perf_counter() - start - sum(timings.values())
+    angle_studies: list[TorqueVsAngle] = []
+    curves = None
+    if settings.studies == "point":
+        angle = math.pi / 4 if angle is None else angle
+        ripple, points = _point_task(model, op.current_peak_A, angle, settings.angle_positions)
     else:
-        from .studies import ripple_steps
-
-        steps = ripple_steps(model, settings.angle_positions)
-        ripple, points = torque_vs_position(model, op.current_peak_A, angle, steps, say)
-        point = points[0]
+        say(f"running the studies in {workers} process(es)")
+        done = run_tasks(model, _full_tasks(spec, settings, angle), workers, say)
+        angle_studies = [done[k] for k in ("torque vs current angle, rated",
+                                           "torque vs current angle, overload") if k in done]
+        curves = done["inductance curves"]
+        if angle is None:
+            angle = math.radians(angle_studies[0].mtpa_angle_deg)
+            done.update(run_tasks(model, [("torque vs position", _ripple_task,
+                                           (op.current_peak_A, angle))], 1, say))
+        ripple, points = done["torque vs position"]
+    timings["studies"] = time.perf_counter() - start - timings["model"]
+    point = points[0]
     summary = _summary(spec, model, settings, angle, ripple, angle_studies, point,
                        time.perf_counter() - start)
     if settings.studies == "point":

@@ -58,8 +58,9 @@ def plot_torque_vs_angle(results: list[TorqueVsAngle], ax=None):
     ax.set_xlabel("current angle γ (deg from d-axis)")
     ax.set_ylabel("mean torque (N·m)")
     ax.set_xlim(0, 90)
+    ax.set_ylim(0, 1.45 * max(r.mtpa_torque_Nm for r in results))  # legend room above
     ax.set_title("Torque vs current angle (" + _NOTE + ")", fontsize=9)
-    ax.legend(fontsize=8, loc="best")
+    ax.legend(fontsize=7, loc="upper left", ncol=2)
     return ax
 
 

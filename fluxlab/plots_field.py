@@ -155,7 +155,8 @@ def _draw_part(ax, machine: MachineMesh, elements, turn, facets, b, a_node, leve
     local = local.reshape(t_part.shape)
     xy = _turned(p_mm[nodes], turn)
     cells = PolyCollection(xy[local], array=b[elements], cmap=_FIELD_CMAP, norm=norm,
-                           edgecolors="face", linewidths=0.1, zorder=1)
+                           edgecolors="face", linewidths=0.1, zorder=1,
+                           rasterized=True)  # thousands of cells: keep SVG/PDF small
     ax.add_collection(cells, autolim=False)  # the limits come from the sector frame
     lines = ax.tricontour(Triangulation(xy[:, 0], xy[:, 1], local), a_node[nodes],
                           levels=levels, colors="k", linewidths=0.55,

@@ -46,8 +46,12 @@ def main(argv: list[str] | None = None) -> int:
         level=logging.INFO if args.verbose else logging.WARNING,
         format="%(levelname)s %(name)s: %(message)s",
     )
+    from threadpoolctl import threadpool_limits
+
     try:
-        return args.handler(args)
+        # one BLAS thread: on few cores the pools fight with the sparse factorisation
+        with threadpool_limits(limits=1):
+            return args.handler(args)
     except FluxlabError as err:
         print(f"fluxlab {args.command}: error:\n{err}", file=sys.stderr)
         return 1

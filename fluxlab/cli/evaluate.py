@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import shutil
 from pathlib import Path
 
@@ -23,10 +24,14 @@ def add_args(parser) -> None:
                         help="grid step of the current-angle study (default 10)")
     parser.add_argument("--angle-positions", type=int, default=4,
                         help="rotor positions averaged per current angle (default 4)")
+    parser.add_argument("--inductance-points", type=int, default=8,
+                        help="currents on each saturation curve (default 8)")
+    parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
+                        help="processes for independent studies (default: the core count)")
 
 
 def _save(fig, out: Path, stem: str, written: list) -> None:
-    for suffix in ("png", "svg"):
+    for suffix in ("png", "pdf"):
         fig.savefig(out / f"{stem}.{suffix}", dpi=170)
         written.append(out / f"{stem}.{suffix}")
 
@@ -87,9 +92,10 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None) ->
 def run(args) -> int:
     spec = load_machine(args.machine)
     settings = StudySettings(studies=args.studies, angle_step_deg=args.angle_step_deg,
-                             angle_positions=args.angle_positions)
+                             angle_positions=args.angle_positions,
+                             inductance_points=args.inductance_points)
     progress = Progress()
-    evaluation = evaluate(spec, settings, progress=progress)
+    evaluation = evaluate(spec, settings, progress=progress, workers=args.workers)
     progress("writing tables, figures and review.pdf")
     written = write_evaluation(evaluation, Path(args.out), Path(args.machine))
     progress.done()

@@ -11,10 +11,10 @@ __all__ = ["Progress"]
 class Progress:
     """Callable that prints ``[elapsed s] message`` to stderr, overwriting on a terminal."""
 
-    def __init__(self, stream=sys.stderr):
-        self.stream = stream
+    def __init__(self, stream=None):
+        self.stream = sys.stderr if stream is None else stream
         self.start = time.perf_counter()
-        self.tty = stream.isatty()
+        self.tty = self.stream.isatty()
 
     def __call__(self, message: str) -> None:
         line = f"[{time.perf_counter() - self.start:7.1f} s] {message}"

@@ -71,11 +71,11 @@ def run(args) -> int:
     ax.set_title(f"{spec.name}: {args.current_A:g} A peak, γ = {args.current_angle_deg:g} deg, "
                  f"position {math.degrees(point.position):.2f} deg", fontsize=10)
     fig.tight_layout()
-    for suffix in ("png", "svg"):
+    for suffix in ("png", "pdf"):
         fig.savefig(out / f"field.{suffix}", dpi=170)
     plt.close(fig)
     print(f"torque {record['torque_maxwell_Nm']:.3f} N·m (Maxwell), "
           f"{record['torque_dq_Nm']:.3f} N·m (dq); psi_d {record['psi_d_Wb']:.4f} Wb, "
           f"psi_q {record['psi_q_Wb']:.4f} Wb; {record['newton_iterations']} Newton steps")
-    print(f"wrote {out / 'solve.json'}, {out / 'field.png'}, {out / 'field.svg'}")
+    print(f"wrote {out / 'solve.json'}, {out / 'field.png'}, {out / 'field.pdf'}")
     return 0
