@@ -76,6 +76,20 @@ def test_invalid_and_failing_candidates_are_stored_and_the_sweep_goes_on(tmp_pat
     assert attempts == {"done": {1}, "rejected": {1}, "failed": {2}}
 
 
+def test_a_crashed_worker_fails_its_candidate_and_the_sweep_goes_on(tmp_path):
+    # speed 77777 makes the fake evaluator end its process abruptly (a mesher crash)
+    sweep = _write_sweep(tmp_path, {SPEED: [1500.0, 77777.0, 1600.0, 1700.0, 1800.0]})
+    rows = run_sweep(sweep, tmp_path / "out", workers=1)
+    assert len(rows) == 5
+    assert rows[1]["status"] == "failed" and "worker lost" in rows[1]["message"]
+    # Tasks queued in the broken pool are lost with it (at most the in-flight count, twice
+    # the workers); they are failed with the same message, the rest is evaluated.
+    lost = [r for r in rows if r["status"] == "failed"]
+    assert all("worker lost" in r["message"] for r in lost)
+    assert 1 <= len(lost) <= 2
+    assert sum(r["status"] == "done" for r in rows) == 5 - len(lost)
+
+
 _SWEEP_16 = {END1: [20.0, 21.0, 22.0, 23.0, 24.0, 25.0, 26.0, 80.0],
              "rotor.barriers[0].width_mm": [2.5, 3.0]}
 

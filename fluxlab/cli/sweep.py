@@ -26,25 +26,33 @@ def add_args(parser) -> None:
     parser.add_argument("--no-progress", action="store_true", help="no progress bar")
 
 
+def _stored(path: Path) -> str:
+    from ..sweep import ResultStore
+
+    if not path.exists():
+        return "nothing was stored yet"
+    with ResultStore(path) as store:
+        counts = store.counts()
+    return (f"{sum(counts.values())} candidates are stored in {path} ("
+            + ", ".join(f"{v} {k}" for k, v in counts.items()) + ")")
+
+
 def run(args) -> int:
-    from ..sweep import STORE_NAME, ResultStore, load_sweep, run_sweep
+    from ..sweep import STORE_NAME, load_sweep, run_sweep
     from ..sweep.outputs import write_sweep_outputs
 
-    if args.workers is not None and args.workers < 1:
-        print(f"fluxlab sweep: error: --workers {args.workers}: must be at least 1",
-              file=sys.stderr)
-        return 2
+    for option, value in (("--workers", args.workers), ("--best", args.best)):
+        if value is not None and value < 1:
+            print(f"fluxlab sweep: error: {option} {value}: must be at least 1", file=sys.stderr)
+            return 2
     sweep = load_sweep(args.sweep)
     out = Path(args.out)
     try:
         rows = run_sweep(sweep, out, workers=args.workers, scheduler=args.scheduler,
                          retry_failed=args.retry_failed, progress=not args.no_progress)
     except KeyboardInterrupt:
-        with ResultStore(out / STORE_NAME) as store:
-            counts = store.counts()
-        print(f"fluxlab sweep: interrupted; {sum(counts.values())} candidates are stored in "
-              f"{out / STORE_NAME} ({', '.join(f'{v} {k}' for k, v in counts.items())}). "
-              f"Run the same command again to resume.", file=sys.stderr)
+        print(f"fluxlab sweep: interrupted; {_stored(out / STORE_NAME)}. Run the same command "
+              "again to resume.", file=sys.stderr)
         return 130
     counts = {s: sum(r["status"] == s for r in rows) for s in ("done", "rejected", "failed")}
     print(f"{sweep.name}: {len(rows)} candidates: "

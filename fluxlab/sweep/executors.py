@@ -71,7 +71,8 @@ class Executor(ABC):
         running: dict[Any, dict] = {}
 
         def refill() -> None:
-            while len(running) < self.capacity():
+            capacity = self.capacity()  # once per refill: on Dask it asks the scheduler
+            while len(running) < capacity:
                 task = next(todo, None)
                 if task is None:
                     return

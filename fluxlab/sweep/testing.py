@@ -14,7 +14,8 @@ Environment variables, read at each call:
     CPU work for measuring parallel speed-up.
 
 A candidate with ``operating.speed_rpm >= 99999`` raises :class:`ConvergenceError`, to test
-failures (the speed changes nothing else here).
+failures; one with ``operating.speed_rpm == 77777`` ends its process at once, like a crash
+of the mesher or an out-of-memory kill (the speed changes nothing else here).
 """
 
 from __future__ import annotations
@@ -28,9 +29,11 @@ import numpy as np
 
 from ..errors import ConvergenceError
 
-__all__ = ["FAIL_SPEED_RPM", "FakeCurve", "FakeEvaluation", "fake_evaluate", "fake_summary"]
+__all__ = ["FAIL_SPEED_RPM", "CRASH_SPEED_RPM", "FakeCurve", "FakeEvaluation", "fake_evaluate",
+           "fake_summary"]
 
 FAIL_SPEED_RPM = 99999.0
+CRASH_SPEED_RPM = 77777.0
 
 
 @dataclass(frozen=True)
@@ -98,6 +101,8 @@ def fake_evaluate(spec, studies: str = "point") -> FakeEvaluation:
     if delay > 0:
         time.sleep(delay)
     _burn(int(os.environ.get("FLUXLAB_FAKE_EVAL_WORK", "0") or 0))
+    if spec.operating.speed_rpm == CRASH_SPEED_RPM:
+        os._exit(70)  # no clean-up, no exception: the worker process is simply gone
     if spec.operating.speed_rpm >= FAIL_SPEED_RPM:
         raise ConvergenceError(f"fake solver: operating.speed_rpm = "
                                f"{spec.operating.speed_rpm} >= {FAIL_SPEED_RPM}")
