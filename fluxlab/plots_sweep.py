@@ -157,7 +157,8 @@ def plot_parameters(rows: Sequence[dict], parameters: Sequence[str], objectives=
         second, _ = pareto_objectives(rows)
         objectives = ("torque_mean_Nm", second, "saliency_ratio")
     n_rows, n_cols = len(objectives), len(parameters)
-    fig, axes = plt.subplots(n_rows, n_cols, figsize=(3.4 * n_cols + 0.8, 2.6 * n_rows + 0.8),
+    fig, axes = plt.subplots(n_rows, n_cols,
+                             figsize=(max(3.4 * n_cols + 0.8, 6.0), 2.6 * n_rows + 1.0),
                              squeeze=False, sharex="col", sharey="row")
     for i, obj in enumerate(objectives):
         done = _done(rows, obj)
@@ -171,7 +172,7 @@ def plot_parameters(rows: Sequence[dict], parameters: Sequence[str], objectives=
                 ax.set_ylabel(OBJECTIVE_LABELS.get(obj, obj), fontsize=8)
             ax.tick_params(labelsize=7)
     counts = {s: sum(r.get("status") == s for r in rows) for s in ("done", "rejected", "failed")}
-    fig.suptitle("Each varied parameter (file units) against each result: "
-                 + ", ".join(f"{v} {k}" for k, v in counts.items()), fontsize=10)
+    fig.suptitle("Each varied parameter (file units) against each result\n"
+                 + ", ".join(f"{v} {k}" for k, v in counts.items()) + " candidates", fontsize=10)
     fig.tight_layout()
     return fig
