@@ -18,7 +18,14 @@ from .solver import FieldProblem, element_areas, make_problem
 from .spec import MachineSpec
 from .winding import WindingLayout, phase_axis_angle, winding_layout
 
-__all__ = ["MachineModel", "build_model", "phase_currents", "current_density", "rotor_step"]
+__all__ = [
+    "MachineModel",
+    "build_model",
+    "phase_currents",
+    "current_density",
+    "coil_side_current_density",
+    "rotor_step",
+]
 
 log = logging.getLogger(__name__)
 
@@ -136,3 +143,26 @@ def phase_currents(current_peak: float, current_angle: float, electrical_angle: 
 def current_density(model: MachineModel, i_abc: np.ndarray) -> np.ndarray:
     """Current density per element, A/m^2, +z out of the page, for phase currents in A."""
     return model.conductor_weight @ np.asarray(i_abc, dtype=float)
+
+
+def coil_side_current_density(model: MachineModel, densities: dict[str, float]) -> np.ndarray:
+    """Current density per element (A/m^2) from densities given per coil-side region.
+
+    For studies with a hand-made excitation; every region named must carry a winding (a
+    ``slot_<k>_layer_<l>`` region), otherwise a SpecError names it.
+    """
+    from .errors import SpecError
+
+    regions = model.mesh.regions
+    coil_sides = {n for n in regions if n.startswith("slot_") and "_layer_" in n}
+    problems = [
+        f"current density on region {name!r} = {value!r} A/m^2: the region carries no "
+        f"winding (coil-side regions: slot_<k>_layer_<l>)"
+        for name, value in densities.items() if name not in coil_sides
+    ]
+    if problems:
+        raise SpecError(problems)
+    j = np.zeros(model.mesh.mesh.t.shape[1])
+    for name, value in densities.items():
+        j[regions[name]] = value
+    return j
