@@ -1,7 +1,6 @@
 """The command line end to end, as a new user runs it (through main([...]))."""
 
 import json
-import shutil
 from pathlib import Path
 
 import pytest

@@ -90,7 +90,8 @@ BAD_CASES = [
     ("rotor.barriers.0.depth_mm", 1.5, "crosses the air gap"),
     ("rotor.barriers.1.depth_mm", 10.0, "steel to rotor.barriers[0]"),  # barriers overlap
     ("rotor.barriers.2.end_angle_deg", 44.0, "d-axis"),  # reaches the neighbouring pole
-    ("rotor.tangential_rib_mm", 0.2, "rotor.tangential_rib_mm = 0.2: thinner than rotor.min_rib_mm"),
+    ("rotor.tangential_rib_mm", 0.2,
+     "rotor.tangential_rib_mm = 0.2: thinner than rotor.min_rib_mm"),
     ("rotor.barriers.1.post_mm", 0.2, "rotor.barriers[1].post_mm = 0.2: thinner than"),
     ("rotor.colour", "red", "rotor.colour: unknown key"),
     ("stator.slots", "36", "stator.slots = '36': must be int, got str"),
@@ -107,7 +108,8 @@ BAD_CASES = [
 ]
 
 
-@pytest.mark.parametrize("path,value,text", BAD_CASES, ids=[c[0] + "=" + str(c[1]) for c in BAD_CASES])
+@pytest.mark.parametrize("path,value,text", BAD_CASES,
+                         ids=[c[0] + "=" + str(c[1]) for c in BAD_CASES])
 def test_bad_input_names_key_value_and_limit(demo_raw, path, value, text):
     problems = _problems(_broken(demo_raw, path, value))
     assert any(text in p for p in problems), problems

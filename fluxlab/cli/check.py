@@ -29,7 +29,7 @@ def summary_lines(spec) -> list[str]:
         f"fundamental winding factor {winding_factor(layout):.4f}",
         f"rotor        {len(r.barriers)} {r.barrier_shape} barrier(s) per pole, shaft "
         f"{r.shaft_diameter * 1e3:g} mm, tangential rib {r.tangential_rib * 1e3:g} mm",
-        f"materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
+        "materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
         f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
         f"{'anti-' if sign < 0 else ''}periodic edges)",
         f"rated point  {spec.operating.current_peak_A:g} A peak"

@@ -4,8 +4,8 @@ from .checks import geometry_problems
 from .sector import (
     poles_in_sector,
     rotor_regions,
-    slot_region_name,
     sliding_radius,
+    slot_region_name,
     slots_in_sector,
     stator_regions,
 )

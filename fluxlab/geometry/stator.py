@@ -129,4 +129,8 @@ def slot_shapes(stator: StatorSpec, layers: int) -> dict[str, Shape]:
     big = 2 * s.x_bottom
     lower = polygon([(0, -big), (x_mid, -big), (x_mid, big), (0, big)])
     upper = polygon([(x_mid, -big), (big, -big), (big, big), (x_mid, big)])
-    return {"opening": opening, "layer_0": intersect(body, lower), "layer_1": intersect(body, upper)}
+    return {
+        "opening": opening,
+        "layer_0": intersect(body, lower),
+        "layer_1": intersect(body, upper),
+    }
