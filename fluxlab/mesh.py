@@ -7,6 +7,7 @@ middle of the air gap, where each part has its own copy of the same equally spac
 from __future__ import annotations
 
 import logging
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,6 +22,8 @@ __all__ = [
     "sliding_divisions",
     "airgap_element_size",
     "rib_element_size",
+    "estimated_elements",
+    "MAX_ELEMENTS",
 ]
 
 log = logging.getLogger(__name__)
@@ -114,6 +117,54 @@ def rib_element_size(spec) -> float:
     return min([spec.rotor.tangential_rib, *posts]) / 3
 
 
+#: Triangles a sector may get before meshing is refused with a MeshError: 100 times the
+#: demo machines' meshes, and at gmsh's rate (about 1 s per 100k triangles, one thread)
+#: still well under a minute; beyond it a mistyped size means a mesh that never ends.
+MAX_ELEMENTS = 2_000_000
+
+
+def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
+    """Order-of-magnitude triangle count of a sector's mesh, by where the triangles go.
+
+    An equilateral triangle of side h covers sqrt(3)/4 h^2, so an area A meshed at size h
+    takes about 4/sqrt(3) A / h^2 triangles. ``bulk``: the sector at ``mesh.size``. ``gap``:
+    the size grows from the air-gap size g with slope 1/2 away from the gap circles, on
+    six sides (rotor surface and bore: both; the sliding circle's two copies: one each), so
+    int per / (g + d/2)^2 dd = 2 per / g triangles per unit of circle length and side. ``ribs``: a disc of twice the
+    rib thickness at the rib size around every rib sample point.
+    """
+    per = 4 / math.sqrt(3)
+    r_out = spec.stator.outer_diameter / 2
+    bulk = per * 0.5 * sector_angle * r_out**2 / spec.mesh.size**2
+    gap = 6 * 2 * per / airgap_element_size(spec) * spec.stator.bore_diameter / 2 * sector_angle
+    ribs = 0.0
+    if spec.rotor.barriers:
+        n_points = len(_rib_points(spec, sector_angle))
+        ribs = per * n_points * math.pi * (2 * spec.rotor.tangential_rib) ** 2 \
+            / rib_element_size(spec) ** 2
+    return {"bulk": bulk, "gap": gap, "ribs": ribs}
+
+
+def _check_size(spec, sector_angle: float) -> None:
+    terms = estimated_elements(spec, sector_angle)
+    total = sum(terms.values())
+    if total <= MAX_ELEMENTS:
+        return
+    keys = {
+        "bulk": "mesh.size_mm for stator.outer_diameter_mm",
+        "gap": "stator.airgap_mm with mesh.airgap_layers",
+        "ribs": "rotor.tangential_rib_mm, rotor.barriers[].post_mm or mesh.rib_size_mm",
+    }
+    worst = max(terms, key=terms.get)
+    raise MeshError(
+        f"the sector would get about {total:.3g} triangles, more than {MAX_ELEMENTS}; "
+        f"most of them from {keys[worst]} (mesh.size_mm = {spec.mesh.size * 1e3:.4g}, "
+        f"stator.outer_diameter_mm = {spec.stator.outer_diameter * 1e3:.4g}, "
+        f"stator.airgap_mm = {spec.stator.airgap * 1e3:.4g}, rib element size "
+        f"{rib_element_size(spec) * 1e3:.4g} mm)"
+    )
+
+
 def _rib_points(spec, sector_angle: float) -> np.ndarray:
     """Sample points along every tangential rib and post of the sector, (n, 2) m."""
     from .geometry import poles_in_sector
@@ -182,6 +233,7 @@ def build_mesh(spec) -> MachineMesh:
     from .winding import machine_symmetry
 
     sectors, sector_angle, edge_sign = machine_symmetry(spec.stator.slots, spec.poles)
+    _check_size(spec, sector_angle)  # before gmsh: a runaway mesh cannot be interrupted
     n_div = sliding_divisions(spec, sector_angle)
     r_slide = sliding_radius(spec)
     fine = airgap_element_size(spec)
