@@ -31,7 +31,7 @@ def test_check_reports_every_problem(tmp_path, capsys):
     text = (GEOMETRIES / "demo_fan_drive.toml").read_text()
     bad = tmp_path / "bad.toml"
     bad.write_text(text.replace("airgap_mm = 0.5", "airgap_mm = -0.5").replace(
-        "turns_per_coil = 11", "turns_per_coil = 0"))
+        "turns_per_coil = 9", "turns_per_coil = 0"))
     assert main(["check", str(bad)]) == 1
     err = capsys.readouterr().err
     assert "stator.airgap_mm = -0.5" in err and "winding.turns_per_coil = 0" in err
@@ -50,7 +50,7 @@ def test_mesh_writes_mesh_and_picture(coarse_machine, tmp_path):
 
 
 def test_solve_writes_field_and_json(coarse_machine, tmp_path):
-    args = ["solve", str(coarse_machine), "--current-A", "22", "--current-angle-deg", "60",
+    args = ["solve", str(coarse_machine), "--current-A", "25", "--current-angle-deg", "60",
             "--position-deg", "0", "--out", str(tmp_path)]
     assert main(args) == 0
     record = json.loads((tmp_path / "solve.json").read_text())
