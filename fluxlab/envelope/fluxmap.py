@@ -1,0 +1,167 @@
+"""Flux maps: psi_d(id, iq) and psi_q(id, iq) from FEM solves on a current grid.
+
+The grid covers the first quadrant id >= 0, iq >= 0 (peak phase amperes). A reluctance
+machine without magnets has psi_d odd in id and even in iq, psi_q the reverse (mirror
+symmetry of the rotor about its d- and q-axes; common practice, no source), so the first
+quadrant holds the whole map. Rows of the grid (fixed id) are solved in parallel worker
+processes, each row warm-started from one iq to the next.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import SpecError
+
+__all__ = [
+    "FluxMap",
+    "current_grid",
+    "flux_map",
+    "flux_map_steps",
+    "incremental_inductances",
+    "flux_map_from_arrays",
+]
+
+log = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True, eq=False)
+class FluxMap:
+    """Flux linkages on a regular (id, iq) grid, whole machine, peak values.
+
+    Attributes
+    ----------
+    i_d_A, i_q_A
+        (n,) and (m,) grid currents, peak phase A, increasing, from 0.
+    psi_d_Wb, psi_q_Wb
+        (n, m) flux linkages, Wb-turns, indexed ``[i_d, i_q]``.
+    torque_Nm
+        (n, m) Maxwell-stress torque, N m (NaN for maps not from the FEM).
+    pole_pairs
+        p, for the torque T = 3/2 p (psi_d iq - psi_q id).
+    positions
+        Rotor positions averaged per grid point (over one torque period).
+    """
+
+    i_d_A: np.ndarray
+    i_q_A: np.ndarray
+    psi_d_Wb: np.ndarray
+    psi_q_Wb: np.ndarray
+    torque_Nm: np.ndarray
+    pole_pairs: int
+    positions: int
+
+    @property
+    def torque_dq_Nm(self) -> np.ndarray:
+        """(n, m) torque from the maps, T = 3/2 p (psi_d iq - psi_q id), N m."""
+        i_d, i_q = np.meshgrid(self.i_d_A, self.i_q_A, indexing="ij")
+        # amplitude-invariant Park transform (DESIGN.md conventions)
+        return 1.5 * self.pole_pairs * (self.psi_d_Wb * i_q - self.psi_q_Wb * i_d)
+
+    @property
+    def max_current_A(self) -> float:
+        """Largest current amplitude wholly inside the grid, peak A."""
+        return float(min(self.i_d_A[-1], self.i_q_A[-1]))
+
+
+def current_grid(max_current_A: float, points: int) -> np.ndarray:
+    """``points`` equally spaced currents from 0 to ``max_current_A`` (peak A)."""
+    if not (isinstance(points, int) and points >= 2):
+        raise SpecError(f"flux map points = {points!r}: must be an integer of at least 2")
+    if not (math.isfinite(max_current_A) and max_current_A > 0):
+        raise SpecError(f"flux map max current = {max_current_A!r} A: must be > 0 and finite")
+    return np.linspace(0.0, float(max_current_A), points)
+
+
+def flux_map_from_arrays(i_d_A, i_q_A, psi_d_Wb, psi_q_Wb, pole_pairs: int,
+                         torque_Nm=None, positions: int = 1) -> FluxMap:
+    """A :class:`FluxMap` from arrays (for tables read back or synthetic machines), checked."""
+    i_d, i_q = np.asarray(i_d_A, float), np.asarray(i_q_A, float)
+    shape = (i_d.size, i_q.size)
+    psi_d, psi_q = np.asarray(psi_d_Wb, float), np.asarray(psi_q_Wb, float)
+    problems = []
+    for name, axis in (("i_d_A", i_d), ("i_q_A", i_q)):
+        if axis.ndim != 1 or axis.size < 2 or not np.all(np.diff(axis) > 0) or axis[0] != 0:
+            problems.append(f"flux map {name}: must rise strictly from 0 with at least 2 values")
+    for name, table in (("psi_d_Wb", psi_d), ("psi_q_Wb", psi_q)):
+        if table.shape != shape or not np.all(np.isfinite(table)):
+            problems.append(f"flux map {name}: shape {table.shape}, must be finite {shape}")
+    if problems:
+        raise SpecError(problems)
+    torque = np.full(shape, np.nan) if torque_Nm is None else np.asarray(torque_Nm, float)
+    return FluxMap(i_d, i_q, psi_d, psi_q, torque, int(pole_pairs), int(positions))
+
+
+def flux_map_steps(model, positions: int) -> np.ndarray:
+    """Rotor steps averaged per grid point: position zero, or ``positions`` over a period."""
+    from ..studies import ripple_steps
+
+    if positions < 1:
+        raise SpecError(f"flux map positions = {positions}: must be at least 1")
+    return np.array([model.axis_step]) if positions == 1 else ripple_steps(model, positions)
+
+
+def _row_task(model, i_d: float, i_q_values: Sequence[float], steps: Sequence[int]):
+    """One grid row (fixed id): mean psi_d, psi_q and Maxwell torque over ``steps``."""
+    from ..studies import solve_point
+
+    initial: dict[int, np.ndarray] = {}  # warm start per rotor step along the row
+    out = np.zeros((3, len(i_q_values)))
+    for k, i_q in enumerate(i_q_values):
+        current = math.hypot(i_d, i_q)
+        if current == 0.0:
+            continue  # no source and no magnet: the field is zero
+        values = []
+        for step in steps:
+            pt = solve_point(model, current, math.atan2(i_q, i_d), int(step), initial.get(step))
+            initial[step] = pt.solution.a
+            values.append((pt.psi_d, pt.psi_q, pt.torque_maxwell_Nm))
+        out[:, k] = np.mean(values, axis=0)
+    return out
+
+
+def flux_map(
+    model,
+    i_d_A: Sequence[float],
+    i_q_A: Sequence[float],
+    positions: int = 1,
+    workers: int = 1,
+    progress: Callable[[str], None] | None = None,
+) -> FluxMap:
+    """Solve the flux map of ``model`` on the grid ``i_d_A`` x ``i_q_A`` (peak phase A).
+
+    Each grid point is solved with current_peak = hypot(id, iq) and current angle
+    atan2(iq, id), at rotor position zero (``positions`` = 1) or averaged over
+    ``positions`` rotor positions of one torque period. Rows run in ``workers`` processes.
+    """
+    from ..study_pool import run_tasks
+
+    i_d, i_q = np.asarray(i_d_A, float), np.asarray(i_q_A, float)
+    flux_map_from_arrays(i_d, i_q, np.zeros((i_d.size, i_q.size)),
+                         np.zeros((i_d.size, i_q.size)), model.spec.pole_pairs)  # checks axes
+    steps = [int(s) for s in flux_map_steps(model, positions)]
+    tasks = [(f"flux map row id = {x:.4g} A", _row_task, (float(x), tuple(i_q), steps))
+             for x in i_d]
+    log.info("flux map: %d x %d points, %d position(s), %d worker(s)",
+             i_d.size, i_q.size, len(steps), workers)
+    done = run_tasks(model, tasks, workers, progress)
+    rows = np.stack([done[name] for name, _, _ in tasks])  # (n, 3, m)
+    return FluxMap(i_d, i_q, rows[:, 0], rows[:, 1], rows[:, 2], model.spec.pole_pairs,
+                   len(steps))
+
+
+def incremental_inductances(fmap: FluxMap) -> dict[str, np.ndarray]:
+    """Incremental (differential) inductances of the maps, H, by finite differences.
+
+    Returns ``L_dd_H`` = d psi_d / d id, ``L_dq_H`` = d psi_d / d iq (cross-saturation),
+    ``L_qd_H`` = d psi_q / d id and ``L_qq_H`` = d psi_q / d iq, each (n, m); second-order
+    central differences inside, one-sided at the edges (numpy.gradient).
+    """
+    gd = np.gradient(fmap.psi_d_Wb, fmap.i_d_A, fmap.i_q_A, edge_order=1)
+    gq = np.gradient(fmap.psi_q_Wb, fmap.i_d_A, fmap.i_q_A, edge_order=1)
+    return {"L_dd_H": gd[0], "L_dq_H": gd[1], "L_qd_H": gq[0], "L_qq_H": gq[1]}

@@ -1,0 +1,64 @@
+"""Maximum torque per ampere: the current angle of largest torque at each current amplitude."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from .fluxmap import FluxMap
+from .interp import FluxInterpolator
+
+__all__ = ["MTPATrajectory", "mtpa_point", "mtpa_trajectory"]
+
+
+@dataclass(frozen=True, eq=False)
+class MTPATrajectory:
+    """The MTPA trajectory: per current amplitude (peak phase A) the best angle and torque.
+
+    ``current_angle_deg`` from the d-axis; ``torque_Nm`` = 3/2 p (psi_d iq - psi_q id)
+    of the interpolated maps.
+    """
+
+    current_peak_A: np.ndarray
+    current_angle_deg: np.ndarray
+    torque_Nm: np.ndarray
+    i_d_A: np.ndarray
+    i_q_A: np.ndarray
+    psi_d_Wb: np.ndarray
+    psi_q_Wb: np.ndarray
+
+
+def mtpa_point(interp: FluxInterpolator, current: float, samples: int = 181) -> float:
+    """MTPA current angle, rad in [0, pi/2], at one current amplitude (peak A).
+
+    A grid of ``samples`` angles finds the best one; a bounded scalar search (Brent,
+    scipy ``minimize_scalar``) refines it within one grid step either side.
+    """
+    from scipy.optimize import minimize_scalar
+
+    if current <= 0:
+        return math.pi / 4  # undefined at zero current: the linear machine's value
+    gamma = np.linspace(0.0, math.pi / 2, samples)
+    torque = interp.torque(current * np.cos(gamma), current * np.sin(gamma))
+    k = int(np.argmax(torque))
+    h = gamma[1] - gamma[0]
+    res = minimize_scalar(
+        lambda g: -float(interp.torque(current * math.cos(g), current * math.sin(g))),
+        bounds=(max(0.0, gamma[k] - h), min(math.pi / 2, gamma[k] + h)), method="bounded",
+        options={"xatol": 1e-7})
+    return float(res.x) if -res.fun >= torque[k] else float(gamma[k])
+
+
+def mtpa_trajectory(fmap: FluxMap, currents: Sequence[float] | None = None) -> MTPATrajectory:
+    """MTPA trajectory of a flux map at ``currents`` (peak A; default 21 up to the grid's)."""
+    interp = FluxInterpolator(fmap)
+    currents = (np.linspace(0.0, fmap.max_current_A, 21) if currents is None
+                else np.asarray(currents, dtype=float))
+    gamma = np.array([mtpa_point(interp, float(c)) for c in currents])
+    i_d, i_q = currents * np.cos(gamma), currents * np.sin(gamma)
+    psi_d, psi_q = interp.psi(i_d, i_q)
+    torque = 1.5 * fmap.pole_pairs * (psi_d * i_q - psi_q * i_d)
+    return MTPATrajectory(currents, np.degrees(gamma), torque, i_d, i_q, psi_d, psi_q)

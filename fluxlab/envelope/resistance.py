@@ -1,0 +1,100 @@
+"""Phase resistance of the stator winding from the slot geometry and the winding data."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from ..errors import SpecError
+from ..spec import MachineSpec
+
+__all__ = [
+    "COPPER_RESISTIVITY_20C_OHM_M",
+    "COPPER_TEMPERATURE_COEFFICIENT_PER_K",
+    "PhaseResistance",
+    "copper_resistivity",
+    "end_winding_length_estimate",
+    "phase_resistance",
+]
+
+#: Annealed copper at 20 C, 1/58 Ohm mm^2/m (IEC 60028, the International Annealed Copper
+#: Standard; from memory).
+COPPER_RESISTIVITY_20C_OHM_M = 1.7241e-8
+#: Temperature coefficient of annealed copper's resistance at 20 C, 1/K (IEC 60028, from
+#: memory).
+COPPER_TEMPERATURE_COEFFICIENT_PER_K = 0.00393
+
+
+@dataclass(frozen=True)
+class PhaseResistance:
+    """Phase resistance estimate and the quantities it comes from (SI units).
+
+    ``resistance_Ohm``: one phase, all parallel paths; ``conductor_area_m2``: copper of one
+    turn; ``turn_length_m`` = 2 (stack length + end-winding length per coil end);
+    ``series_turns``: turns per phase per parallel path.
+    """
+
+    resistance_Ohm: float
+    temperature_C: float
+    resistivity_Ohm_m: float
+    slot_layer_area_m2: float
+    conductor_area_m2: float
+    end_winding_length_m: float
+    end_winding_estimated: bool
+    turn_length_m: float
+    series_turns: float
+    parallel_paths: int
+
+
+def copper_resistivity(temperature_C: float) -> float:
+    """Resistivity of annealed copper, Ohm m: rho20 (1 + alpha (T - 20 C)) (IEC 60028)."""
+    if not (math.isfinite(temperature_C) and -200.0 < temperature_C < 400.0):
+        raise SpecError(f"copper temperature = {temperature_C!r} C: must be in (-200, 400)")
+    return COPPER_RESISTIVITY_20C_OHM_M * (
+        1.0 + COPPER_TEMPERATURE_COEFFICIENT_PER_K * (temperature_C - 20.0))
+
+
+def end_winding_length_estimate(spec: MachineSpec) -> float:
+    """End-winding length of one coil end, m: 1.2 W + 0.05 m.
+
+    Half of the average turn's end-winding length 2.4 W + 0.1 m for low-voltage machines
+    with round-wire coils, W the coil span at mid-slot (J. Pyrhonen, T. Jokinen,
+    V. Hrabovcova, "Design of Rotating Electrical Machines", Wiley 2008, ch. 9 on the
+    resistance of windings; formula from memory).
+    """
+    st = spec.stator
+    mid_slot_diameter = st.bore_diameter + st.slot_depth
+    span = spec.winding.coil_pitch_slots * math.pi * mid_slot_diameter / st.slots
+    return 1.2 * span + 0.05
+
+
+def phase_resistance(
+    spec: MachineSpec,
+    temperature_C: float | None = None,
+    end_winding_length: float | None = None,
+) -> PhaseResistance:
+    """Phase resistance of ``spec``'s winding, Ohm, at ``temperature_C`` (default: the spec's).
+
+    One coil side fills a slot layer: conductor area = fill factor x layer area / turns per
+    coil. R = rho N_s l_turn / (a A_c) with N_s the series turns per path and a the parallel
+    paths (a paths of N_s turns each, in parallel).
+    """
+    from ..geometry.csg import to_shapely
+    from ..geometry.stator import slot_shapes
+    from ..winding import series_turns_per_phase, winding_layout
+
+    w = spec.winding
+    temperature = spec.drive.copper_temperature_C if temperature_C is None else temperature_C
+    given = spec.drive.end_winding_length if end_winding_length is None else end_winding_length
+    if given is not None and not (math.isfinite(given) and given > 0):
+        raise SpecError(f"end-winding length = {given!r} m: must be > 0")
+    end = end_winding_length_estimate(spec) if given is None else given
+    layer_area = to_shapely(slot_shapes(spec.stator, w.layers)["layer_0"]).area
+    conductor = w.fill_factor * layer_area / w.turns_per_coil
+    layout = winding_layout(spec.stator.slots, spec.poles, w.layers, w.coil_pitch_slots)
+    turns = series_turns_per_phase(layout, w.turns_per_coil, w.parallel_paths)
+    rho = copper_resistivity(temperature)
+    turn_length = 2.0 * (spec.stack_length + end)
+    resistance = float(rho * turns * turn_length / (w.parallel_paths * conductor))
+    return PhaseResistance(resistance, temperature, rho, layer_area, conductor, end,
+                           given is None, turn_length, float(turns), w.parallel_paths)

@@ -1,0 +1,181 @@
+"""The whole operating-envelope study of one machine: maps, MTPA, limits, losses, ribs."""
+
+from __future__ import annotations
+
+import logging
+import math
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import MaterialError, SpecError
+from ..spec import MachineSpec
+from .drive import Envelope, phase_voltage_limit, torque_speed_envelope
+from .fluxmap import FluxMap, current_grid, flux_map
+from .ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
+from .mtpa import MTPATrajectory, mtpa_point, mtpa_trajectory
+from .resistance import PhaseResistance, phase_resistance
+from .ribstress import RibStress, rib_stress
+
+__all__ = ["EnvelopeSettings", "EnvelopeResult", "envelope_settings", "envelope_study"]
+
+log = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True)
+class EnvelopeSettings:
+    """Settings of an envelope study, SI units except where the name says.
+
+    Defaults come from the machine file's ``drive`` section (see :func:`envelope_settings`).
+    ``loss_samples``: rotor positions per electrical period of the iron-loss sweep (0 skips
+    the iron loss); ``speed_points``: speeds of the envelope from 0 to ``max_speed_rpm``.
+    """
+
+    current_limit_A: float
+    voltage_limit_V: float
+    max_speed_rpm: float
+    map_points: int
+    map_max_current_A: float
+    map_positions: int
+    speed_points: int = 61
+    loss_samples: int = 48
+    rib_safety_factor: float = 1.5
+
+    def __post_init__(self):
+        problems = []
+        if not self.map_max_current_A >= self.current_limit_A > 0:
+            problems.append(f"flux map max current {self.map_max_current_A} A: must be at "
+                            f"least the current limit {self.current_limit_A} A (> 0)")
+        if not (math.isfinite(self.max_speed_rpm) and self.max_speed_rpm > 0):
+            problems.append(f"max speed {self.max_speed_rpm!r} rpm: must be > 0")
+        if self.speed_points < 2:
+            problems.append(f"speed points = {self.speed_points}: need at least 2")
+        if self.loss_samples != 0 and self.loss_samples < 4:
+            problems.append(f"iron loss samples = {self.loss_samples}: 0 (skip) or >= 4")
+        if self.map_points < 2 or self.map_positions < 1:
+            problems.append(f"flux map points = {self.map_points}, positions = "
+                            f"{self.map_positions}: need at least 2 and 1")
+        if problems:
+            raise SpecError(problems)
+
+
+def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:
+    """Settings from ``spec.drive`` (defaults filled in), with keyword overrides."""
+    d, op = spec.drive, spec.operating
+    limit = d.current_limit_peak_A or op.overload_current_peak_A or op.current_peak_A
+    values = dict(
+        current_limit_A=limit,
+        voltage_limit_V=phase_voltage_limit(d.dc_link_voltage_V, d.modulation_limit),
+        max_speed_rpm=d.max_speed_rpm or 2 * op.speed_rpm,
+        map_points=d.flux_map_points,
+        map_max_current_A=d.flux_map_max_current_peak_A or limit,
+        map_positions=d.flux_map_positions,
+        rib_safety_factor=d.rib_safety_factor,
+    )
+    values.update({k: v for k, v in overrides.items() if v is not None})
+    return EnvelopeSettings(**values)
+
+
+@dataclass(frozen=True, eq=False)
+class EnvelopeResult:
+    """Everything an envelope study found; ``summary`` holds the key figures (JSON-able)."""
+
+    spec: MachineSpec
+    settings: EnvelopeSettings
+    flux_map: FluxMap
+    mtpa: MTPATrajectory
+    resistance: PhaseResistance
+    envelope: Envelope
+    iron_loss: IronLoss | None
+    rated_point: dict
+    ribs: RibStress
+    summary: dict
+    timings_s: dict = field(default_factory=dict)
+
+
+def _rated_point(spec, fmap, res, iron, gamma) -> dict:
+    from .interp import FluxInterpolator
+
+    current, speed = spec.operating.current_peak_A, spec.operating.speed_rpm
+    torque = float(FluxInterpolator(fmap).torque(current * math.cos(gamma),
+                                                 current * math.sin(gamma)))
+    power = torque * speed * 2 * math.pi / 60
+    cu = copper_loss(res.resistance_Ohm, current)
+    fe = iron.total_W if iron is not None else math.nan
+    return {"current_peak_A": current, "current_angle_deg": math.degrees(gamma),
+            "speed_rpm": speed, "torque_Nm": torque, "power_W": power, "copper_loss_W": cu,
+            "iron_loss_W": fe, "efficiency": efficiency(power, cu, fe)}
+
+
+def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, *,
+                   model=None, workers: int = 1,
+                   progress: Callable[[str], None] | None = None) -> EnvelopeResult:
+    """Run the envelope study of ``spec`` (FEM flux map and iron-loss sweep in ``workers``).
+
+    Iron loss is computed at the rated current on its MTPA angle (from the maps) at the
+    rated speed; it is skipped, with a warning, when a steel has no loss coefficients.
+    """
+    from ..model import build_model
+
+    settings = settings or envelope_settings(spec)
+    say = progress or (lambda message: None)
+    start = time.perf_counter()
+    model = model or build_model(spec)
+    timings = {"model": time.perf_counter() - start}
+    grid = current_grid(settings.map_max_current_A, settings.map_points)
+    say(f"flux map {grid.size} x {grid.size}")
+    fmap = flux_map(model, grid, grid, settings.map_positions, workers, say)
+    timings["flux_map"] = time.perf_counter() - start - sum(timings.values())
+    mtpa = mtpa_trajectory(fmap, np.linspace(0, settings.current_limit_A, 21))
+    res = phase_resistance(spec)
+    speeds = np.linspace(0.0, settings.max_speed_rpm, settings.speed_points)
+    env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_A,
+                                settings.voltage_limit_V, speeds)
+    from .interp import FluxInterpolator
+
+    gamma = mtpa_point(FluxInterpolator(fmap), spec.operating.current_peak_A)
+    iron = None
+    if settings.loss_samples:
+        try:
+            say("iron loss position sweep")
+            iron = iron_loss_estimate(model, spec.operating.current_peak_A, gamma,
+                                      spec.operating.speed_rpm, settings.loss_samples,
+                                      workers, say)
+        except MaterialError as err:
+            log.warning("iron loss skipped: %s", err)
+    timings["iron_loss"] = time.perf_counter() - start - sum(timings.values())
+    ribs = rib_stress(spec, settings.max_speed_rpm, settings.rib_safety_factor)
+    rated = _rated_point(spec, fmap, res, iron, gamma)
+    summary = _summary(settings, env, res, rated, ribs, fmap)
+    return EnvelopeResult(spec, settings, fmap, mtpa, res, env, iron, rated, ribs, summary,
+                          timings)
+
+
+def _summary(settings, env, res, rated, ribs, fmap) -> dict:
+    worst = max(ribs.barriers, key=lambda b: b.stress_Pa, default=None)
+    return {
+        "current_limit_peak_A": settings.current_limit_A,
+        "voltage_limit_peak_V": settings.voltage_limit_V,
+        "max_speed_rpm": settings.max_speed_rpm,
+        "base_speed_rpm": env.base_speed_rpm,
+        "base_torque_Nm": env.base_torque_Nm,
+        "base_power_W": env.base_torque_Nm * env.base_speed_rpm * 2 * math.pi / 60,
+        "torque_at_max_speed_Nm": float(env.torque_Nm[-1]),
+        "power_at_max_speed_W": env.power_at_max_speed_W,
+        "max_power_W": float(env.power_W.max()),
+        "phase_resistance_Ohm": res.resistance_Ohm,
+        "copper_temperature_C": res.temperature_C,
+        "end_winding_length_m": res.end_winding_length_m,
+        "rated": rated,
+        "flux_map_points": int(fmap.i_d_A.size),
+        "flux_map_positions": fmap.positions,
+        "rib_speed_rpm": ribs.speed_rpm,
+        "rib_max_stress_MPa": worst.stress_Pa / 1e6 if worst else None,
+        "rib_allowed_stress_MPa": worst.allowed_Pa / 1e6 if worst else None,
+        "rib_stress_exceeded": ribs.exceeded,
+        "rib_caution": ribs.caution,
+        "conventions": "peak phase currents and voltages; amplitude-invariant Park "
+                       "transform; current angle from the d-axis; V_max = m V_dc / sqrt(3)",
+    }
