@@ -64,6 +64,9 @@ def main() -> None:
         done = sum(r["status"] == "done" for r in rows)
         print(f"  {workers} worker(s): {times[workers]:7.1f} s  ({done} of {len(rows)} done)")
     print(f"speed-up with 2 workers: {times[1] / times[2]:.2f}x")
+    # other processes on the cores spoil the comparison: say how busy the machine was
+    print("load average (1, 5, 15 min) at the end: "
+          + ", ".join(f"{x:.2f}" for x in os.getloadavg()))
 
 
 if __name__ == "__main__":
