@@ -12,6 +12,16 @@ functional ``Pi(A) = int w(|grad A|^2) dS - int J A dS`` (convex for monotone B-
 and the residual is its gradient, so a Newton step is a descent direction).  Near the
 solution the predicted decrease of Pi falls below the round-off of Pi itself; there the
 step is accepted when the residual norm decreases instead.
+
+Factorisation reuse (chord steps): a factorisation is kept for the next step while the
+step it produced was taken in full and cut the residual norm by at least the factor
+``reuse`` (default 0.25); otherwise the Jacobian is assembled and factorised anew.  Any
+SPD matrix gives a descent direction of the convex Pi, so a chord step is safe for the
+line search; near the solution it contracts about as fast as the Jacobian changes
+(Kelley, Iterative Methods for Linear and Nonlinear Equations, SIAM 1995, ch. 5.4, from
+memory), and a slow one triggers a new factorisation.  A line search that fails on a
+reused factorisation is retried once with a fresh one.  ``reuse = 0`` is plain Newton.
+The convergence test and the line search are the same either way.
 """
 
 from __future__ import annotations
@@ -26,15 +36,15 @@ from scipy.sparse.linalg import splu
 
 from . import assembly
 from .errors import ConvergenceError, SpecError
+from .linsolve import LinearSolver
 from .tiemap import ReducedPattern, TieMap
 
 __all__ = ["LinearSolver", "NewtonResult", "splu_symmetric", "newton_solve"]
 
 logger = logging.getLogger(__name__)
 
-#: A factorisation: takes the symmetric positive definite reduced Jacobian (CSR) and
-#: returns a function solving it for one right-hand side.
-LinearSolver = Callable[[sparse.csr_matrix], Callable[[np.ndarray], np.ndarray]]
+#: Default contraction a reused factorisation must keep (see the module docstring).
+REUSE = 0.25
 
 _ARMIJO = 1e-4  # sufficient-decrease constant (Nocedal & Wright, Numerical Optimization, ch. 3)
 _MAX_HALVINGS = 30
@@ -77,12 +87,16 @@ class NewtonResult:
         Relative residual before the first and after every iteration.
     iterations
         Newton steps taken.
+    factorizations
+        Jacobians assembled and factorised (at most ``iterations`` plus line-search
+        retries; fewer when factorisations were reused).
     """
 
     a: np.ndarray
     state: assembly.FieldState
     history: tuple[float, ...]
     iterations: int
+    factorizations: int = 0
 
 
 @dataclass(frozen=True, eq=False)
@@ -117,13 +131,16 @@ def _reference(data, materials, tie: TieMap, load: np.ndarray) -> float:
     return float(np.linalg.norm(_point(data, materials, tie, load, zero).r))
 
 
-def _line_search(data, materials, tie, load, start: _Point, step: np.ndarray) -> _Point:
+def _line_search(
+    data, materials, tie, load, start: _Point, step: np.ndarray
+) -> tuple[_Point, float]:
+    """The accepted point and its step length."""
     slope = float(start.r @ step)
     t = 1.0
     for _ in range(_MAX_HALVINGS):
         trial = _point(data, materials, tie, load, start.a_red + t * step)
         if _accept(trial, start, t, slope):
-            return trial
+            return trial, t
         t *= 0.5
     raise ConvergenceError(f"line search: no acceptable step after {_MAX_HALVINGS} halvings")
 
@@ -140,6 +157,7 @@ def newton_solve(
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
     linear_solver: LinearSolver = splu_symmetric,
+    reuse: float = REUSE,
 ) -> NewtonResult:
     """Solve ``P^T r(P a_red + c) = 0`` by damped Newton.
 
@@ -162,7 +180,11 @@ def newton_solve(
         Called as ``callback(iteration, relative_residual)`` before the first step
         (iteration 0) and after each step.
     linear_solver
-        Factorisation of the reduced Jacobian, see :data:`LinearSolver`.
+        Factorisation of the reduced Jacobian, see :data:`LinearSolver` and
+        :mod:`fluxlab.linsolve`.
+    reuse
+        Keep a factorisation while each step it gives is taken in full and cuts the
+        residual norm by at least this factor; 0 refactorises every step (plain Newton).
 
     Raises
     ------
@@ -172,6 +194,8 @@ def newton_solve(
     """
     if not (0.0 < rtol < 1.0):
         raise SpecError(f"rtol: {rtol!r} must be in (0, 1)")
+    if not (0.0 <= reuse < 1.0):
+        raise SpecError(f"reuse: {reuse!r} must be in [0, 1)")
     a_red = np.zeros(tie.n_reduced)
     if initial is not None:
         initial = np.asarray(initial, dtype=float)
@@ -188,7 +212,8 @@ def newton_solve(
     history = [float(np.linalg.norm(point.r)) / reference]
     if callback is not None:
         callback(0, history[-1])
-    iterations = 0
+    iterations = factorizations = 0
+    solve = None  # the kept factorisation, if any
     while history[-1] > rtol:
         if iterations >= max_iter:
             raise ConvergenceError(
@@ -196,15 +221,30 @@ def newton_solve(
                 f"max_iter = {max_iter} steps",
                 history,
             )
-        matrix = pattern.matrix(assembly.jacobian_values(data, point.state))
         try:
-            step = -linear_solver(matrix)(point.r)
-            point = _line_search(data, materials, tie, load, point, step)
+            while True:
+                fresh = solve is None
+                if fresh:
+                    matrix = pattern.matrix(assembly.jacobian_values(data, point.state))
+                    solve = linear_solver(matrix)
+                    factorizations += 1
+                try:
+                    trial, t = _line_search(data, materials, tie, load, point, -solve(point.r))
+                    break
+                except ConvergenceError:
+                    if fresh:
+                        raise
+                    solve = None  # a stale factorisation failed: retry with a fresh one
         except ConvergenceError as exc:
             raise ConvergenceError(f"newton step {iterations + 1}: {exc}", history) from exc
+        ratio = float(np.linalg.norm(trial.r)) / max(float(np.linalg.norm(point.r)), 1e-300)
+        if t < 1.0 or ratio > reuse:
+            solve = None
+        point = trial
         iterations += 1
         history.append(float(np.linalg.norm(point.r)) / reference)
-        logger.debug("newton %d: relative residual %.3e", iterations, history[-1])
+        logger.debug("newton %d: relative residual %.3e%s", iterations, history[-1],
+                     "" if fresh else " (reused factorisation)")
         if callback is not None:
             callback(iterations, history[-1])
-    return NewtonResult(point.state.a, point.state, tuple(history), iterations)
+    return NewtonResult(point.state.a, point.state, tuple(history), iterations, factorizations)

@@ -16,10 +16,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from skfem import Basis, MeshTri
 
-from . import assembly
+from . import assembly, linsolve
 from .errors import MaterialError, MeshError, SpecError
 from .mesh import MachineMesh
-from .newton import LinearSolver, newton_solve, splu_symmetric
+from .newton import REUSE, LinearSolver, newton_solve
 from .tiemap import ReducedPattern, SectorDofs, TieMap, reduced_pattern, sector_dofs, sector_tie_map
 
 __all__ = [
@@ -29,6 +29,7 @@ __all__ = [
     "step_tie_map",
     "solve_field",
     "solve_tied",
+    "linear_backend",
     "element_areas",
     "region_integral_of_a",
 ]
@@ -72,6 +73,8 @@ class FieldProblem:
     data: assembly.ElementData
     sector: SectorDofs
     _steps: OrderedDict = field(default_factory=OrderedDict, repr=False)
+    #: Other per-problem caches (warm-start maps, linear-solver backends), by key.
+    _extra: dict = field(default_factory=dict, repr=False)
 
     @property
     def n_dofs(self) -> int:
@@ -114,6 +117,8 @@ class FieldSolution:
         Magnetic energy ``int w(B^2) dS`` of the modelled domain, J/m.
     coenergy_per_m
         Magnetic coenergy ``int w'(B^2) dS`` of the modelled domain, J/m.
+    factorizations
+        Jacobians factorised (fewer than ``iterations`` when factorisations were reused).
     """
 
     a: np.ndarray
@@ -124,6 +129,7 @@ class FieldSolution:
     iterations: int
     energy_per_m: float
     coenergy_per_m: float
+    factorizations: int = 0
 
 
 def make_problem(
@@ -206,7 +212,8 @@ def solve_field(
     rtol: float = 1e-8,
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
-    linear_solver: LinearSolver = splu_symmetric,
+    linear_solver: str | LinearSolver = "auto",
+    reuse: float = REUSE,
 ) -> FieldSolution:
     """Solve the nonlinear field for a current density at a rotor step.
 
@@ -223,8 +230,12 @@ def solve_field(
     initial
         (n_dofs,) start potential, Wb/m, e.g. the solution of the neighbouring step or
         current; None starts from zero.
-    rtol, max_iter, callback, linear_solver
+    rtol, max_iter, callback, reuse
         See :func:`fluxlab.newton.newton_solve`.
+    linear_solver
+        A backend name of :func:`fluxlab.linsolve.choose` (``"auto"``, ``"scipy"``,
+        ``"pardiso"``; one instance per problem and name is kept, so its orderings and
+        symbolic analyses are reused across solves), or a backend callable.
 
     Raises
     ------
@@ -244,8 +255,26 @@ def solve_field(
         rtol,
         max_iter,
         callback,
-        linear_solver,
+        linear_backend(problem, linear_solver),
+        reuse,
     )
+
+
+def linear_backend(problem: FieldProblem, linear_solver: str | LinearSolver) -> LinearSolver:
+    """The backend a solve of ``problem`` uses: a callable as it is, a name resolved once
+    per problem (see :func:`fluxlab.linsolve.choose`) and kept on it.
+
+    Raises
+    ------
+    SpecError
+        On an unknown name, or ``"pardiso"`` without pypardiso installed.
+    """
+    if callable(linear_solver):
+        return linear_solver
+    key = ("linear_solver", linear_solver)
+    if key not in problem._extra:
+        problem._extra[key] = linsolve.choose(linear_solver)
+    return problem._extra[key]
 
 
 def solve_tied(
@@ -257,7 +286,8 @@ def solve_tied(
     rtol: float = 1e-8,
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
-    linear_solver: LinearSolver = splu_symmetric,
+    linear_solver: str | LinearSolver = "auto",
+    reuse: float = REUSE,
 ) -> FieldSolution:
     """Like :func:`solve_field`, with a tie map built by the caller.
 
@@ -269,12 +299,14 @@ def solve_tied(
         raise MeshError(f"tie: built for {tie.P.shape[0]} dofs, problem has {problem.n_dofs}")
     pattern = reduced_pattern(tie, problem.data.pattern.indptr, problem.data.pattern.indices)
     return _solve(
-        problem, tie, pattern, current_density, 0, initial, rtol, max_iter, callback, linear_solver
+        problem, tie, pattern, current_density, 0, initial, rtol, max_iter, callback,
+        linear_backend(problem, linear_solver), reuse,
     )
 
 
 def _solve(
-    problem, tie, pattern, current_density, step, initial, rtol, max_iter, callback, linear_solver
+    problem, tie, pattern, current_density, step, initial, rtol, max_iter, callback,
+    linear_solver, reuse,
 ) -> FieldSolution:
     data = problem.data
     load = assembly.load_vector(data, assembly.source_at_quadrature(data, current_density))
@@ -289,6 +321,7 @@ def _solve(
         max_iter=max_iter,
         callback=callback,
         linear_solver=linear_solver,
+        reuse=reuse,
     )
     state = result.state
     w = data.weights
@@ -305,6 +338,7 @@ def _solve(
         result.iterations,
         assembly.energy(data, problem.materials, state),
         assembly.coenergy(data, problem.materials, state),
+        result.factorizations,
     )
 
 
