@@ -28,6 +28,7 @@ from .mesh import build_mesh  # noqa: E402
 from .model import build_model  # noqa: E402
 from .solver import solve_field  # noqa: E402
 from .spec import load_machine, machine_from_dict  # noqa: E402
+from .sweep import run_sweep  # noqa: E402
 from .studies import (  # noqa: E402
     inductance_curves,
     solve_point,
@@ -44,6 +45,7 @@ __all__ = [
     "solve_field",
     "solve_point",
     "evaluate",
+    "run_sweep",
     "Evaluation",
     "StudySettings",
     "torque_vs_position",
