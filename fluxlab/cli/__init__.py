@@ -14,7 +14,7 @@ from ..errors import FluxlabError
 
 __all__ = ["main"]
 
-_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare")
+_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope")
 
 
 def _parser() -> argparse.ArgumentParser:

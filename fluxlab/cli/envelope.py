@@ -1,0 +1,169 @@
+"""Operating envelope: flux maps, MTPA, torque-speed limits, iron loss, rib stress.
+
+Writes CSV tables (units in the column names; peak phase currents and voltages), figures
+(PNG and SVG), envelope.pdf (one review page) and envelope_summary.json to --out.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+from pathlib import Path
+
+import numpy as np
+
+from ..envelope import envelope_settings, envelope_study, incremental_inductances, inverse_tables
+from ..spec import load_machine
+from .progress import Progress
+
+__all__ = ["add_args", "run", "envelope_tables", "write_envelope"]
+
+
+def add_args(parser) -> None:
+    parser.add_argument("machine", help="machine file (TOML)")
+    parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--points", type=int, default=None,
+                        help="flux-map points per axis (default: drive.flux_map_points)")
+    parser.add_argument("--positions", type=int, default=None,
+                        help="rotor positions averaged per map point "
+                             "(default: drive.flux_map_positions)")
+    parser.add_argument("--max-current-A", type=float, default=None,
+                        help="flux-map range, peak A (default: the current limit)")
+    parser.add_argument("--speed-points", type=int, default=61,
+                        help="speeds of the envelope from 0 to the top speed (default 61)")
+    parser.add_argument("--loss-samples", type=int, default=48,
+                        help="rotor positions per electrical period for the iron loss "
+                             "(default 48; 0 skips it)")
+    parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
+                        help="processes for the FEM solves (default: the core count)")
+
+
+def _write(path: Path, columns: dict) -> Path:
+    names = list(columns)
+    rows = zip(*(np.asarray(columns[n]).ravel() for n in names), strict=True)
+    with path.open("w", newline="") as f:
+        writer = csv.writer(f)
+        writer.writerow(names)
+        for row in rows:
+            writer.writerow([v if isinstance(v, str) else f"{float(v):.10g}" for v in row])
+    return path
+
+
+def envelope_tables(result) -> dict[str, dict]:
+    """Every table of an envelope result: file stem -> columns (units in the names)."""
+    f, m, e = result.flux_map, result.mtpa, result.envelope
+    d, q = np.meshgrid(f.i_d_A, f.i_q_A, indexing="ij")
+    lk = incremental_inductances(f)
+    inv = inverse_tables(f)
+    pd, pq = np.meshgrid(inv.psi_d_Wb, inv.psi_q_Wb, indexing="ij")
+    tables = {
+        "flux_map": {"id_A": d, "iq_A": q, "psi_d_Wb": f.psi_d_Wb, "psi_q_Wb": f.psi_q_Wb,
+                     "torque_maxwell_Nm": f.torque_Nm, "torque_dq_Nm": f.torque_dq_Nm,
+                     **lk},
+        "flux_map_inverse": {"psi_d_Wb": pd, "psi_q_Wb": pq, "id_A": inv.i_d_A,
+                             "iq_A": inv.i_q_A},
+        "mtpa": {"current_peak_A": m.current_peak_A, "current_angle_deg": m.current_angle_deg,
+                 "torque_Nm": m.torque_Nm, "id_A": m.i_d_A, "iq_A": m.i_q_A,
+                 "psi_d_Wb": m.psi_d_Wb, "psi_q_Wb": m.psi_q_Wb},
+        "torque_speed": {"speed_rpm": e.speed_rpm, "torque_Nm": e.torque_Nm,
+                         "power_W": e.power_W, "id_A": e.i_d_A, "iq_A": e.i_q_A,
+                         "current_peak_A": e.current_peak_A,
+                         "current_angle_deg": e.current_angle_deg,
+                         "voltage_peak_V": e.voltage_peak_V, "power_factor": e.power_factor,
+                         "region": np.array(e.region)},
+        "rib_stress": {
+            "barrier": [b.barrier + 1 for b in result.ribs.barriers],
+            "island_mass_kg": [b.island_mass_kg for b in result.ribs.barriers],
+            "centroid_radius_mm": [1e3 * b.centroid_radius_m for b in result.ribs.barriers],
+            "force_N": [b.force_N for b in result.ribs.barriers],
+            "rib_area_mm2": [1e6 * b.rib_area_m2 for b in result.ribs.barriers],
+            "post_area_mm2": [1e6 * b.post_area_m2 for b in result.ribs.barriers],
+            "stress_MPa": [b.stress_Pa / 1e6 for b in result.ribs.barriers],
+            "allowed_MPa": [b.allowed_Pa / 1e6 for b in result.ribs.barriers],
+            "exceeded": np.array(["yes" if b.exceeded else "no" for b in result.ribs.barriers]),
+        },
+    }
+    regions = result.iron_loss.regions if result.iron_loss else ()
+    tables["losses"] = {
+        "part": np.array([r.name for r in regions] + ["copper"]),
+        "mass_kg": [r.mass_kg for r in regions] + [np.nan],
+        "hysteresis_W": [r.hysteresis_W for r in regions] + [0.0],
+        "eddy_W": [r.eddy_W for r in regions] + [0.0],
+        "excess_W": [r.excess_W for r in regions] + [0.0],
+        "total_W": [r.total_W for r in regions] + [result.rated_point["copper_loss_W"]],
+    }
+    return tables
+
+
+def _save(fig, out: Path, stem: str, written: list) -> None:
+    for suffix in ("png", "svg"):
+        fig.savefig(out / f"{stem}.{suffix}", dpi=150)
+        written.append(out / f"{stem}.{suffix}")
+
+
+def write_envelope(result, out: Path) -> list[Path]:
+    """Write the tables, figures, envelope.pdf and envelope_summary.json; returns the paths."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from .. import plots_envelope as pe
+
+    out.mkdir(parents=True, exist_ok=True)
+    written = [_write(out / f"{stem}.csv", cols)
+               for stem, cols in envelope_tables(result).items()]
+    summary = {**result.summary, "rib_warnings": list(result.ribs.warnings),
+               "timings_s": result.timings_s}
+    (out / "envelope_summary.json").write_text(json.dumps(summary, indent=2, default=float))
+    written.append(out / "envelope_summary.json")
+    figures = [
+        ("flux_map_contours", lambda: pe.plot_flux_map_contours(result.flux_map), (11, 4.4)),
+        ("flux_map_cross_saturation", lambda: pe.plot_cross_saturation(result.flux_map),
+         (11, 4.2)),
+        ("mtpa", lambda: pe.plot_mtpa(result.flux_map, result.mtpa,
+                                      current_limit_A=result.settings.current_limit_A), None),
+        ("torque_speed", lambda: pe.plot_envelope(result.envelope), None),
+        ("losses", lambda: pe.plot_losses(
+            result.iron_loss, result.rated_point["copper_loss_W"],
+            title=f"Losses at {result.rated_point['current_peak_A']:g} A peak (MTPA), "
+                  f"{result.rated_point['speed_rpm']:g} rpm"), None),
+    ]
+    for stem, draw, size in figures:
+        axes = draw()
+        first = axes[0] if isinstance(axes, (list, np.ndarray)) else axes
+        fig = first.figure
+        if size:
+            fig.set_size_inches(*size)
+        fig.tight_layout()
+        _save(fig, out, stem, written)
+        plt.close(fig)
+    pe.add_envelope_page(out / "envelope.pdf", result)
+    written.append(out / "envelope.pdf")
+    return written
+
+
+def run(args) -> int:
+    spec = load_machine(args.machine)
+    settings = envelope_settings(spec, map_points=args.points, map_positions=args.positions,
+                                 map_max_current_A=args.max_current_A,
+                                 speed_points=args.speed_points, loss_samples=args.loss_samples)
+    progress = Progress()
+    result = envelope_study(spec, settings, workers=args.workers, progress=progress)
+    progress("writing tables and figures")
+    written = write_envelope(result, Path(args.out))
+    progress.done()
+    s, r = result.summary, result.summary["rated"]
+    print(f"{spec.name}: base speed {s['base_speed_rpm']:.0f} rpm at "
+          f"{s['base_torque_Nm']:.1f} N·m ({s['current_limit_peak_A']:g} A peak, "
+          f"{s['voltage_limit_peak_V']:.0f} V peak); {s['power_at_max_speed_W'] / 1e3:.2f} kW "
+          f"at {s['max_speed_rpm']:g} rpm; R = {s['phase_resistance_Ohm']:.3f} Ω")
+    print(f"rated {r['current_peak_A']:g} A at {r['speed_rpm']:g} rpm: {r['torque_Nm']:.1f} "
+          f"N·m, copper {r['copper_loss_W']:.0f} W, iron {r['iron_loss_W']:.0f} W, "
+          f"efficiency {r['efficiency']:.3f}")
+    for warning in result.ribs.warnings:
+        print(f"WARNING: {warning}")
+    print(f"caution: {result.ribs.caution}")
+    print(f"wrote {len(written)} files to {args.out}")
+    return 0
