@@ -96,9 +96,10 @@ def plot_mtpa(fmap, mtpa, ax=None, current_limit_A: float | None = None,
     ax.set_ylabel("iq (A, peak)")
     ax.set_title("MTPA trajectory over torque contours")
     if legend_below:
-        ax.legend(fontsize=7, loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=3)
+        legend = ax.legend(fontsize=7, loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=3)
     else:
-        ax.legend(fontsize=6, loc="lower right", framealpha=0.85)
+        legend = ax.legend(fontsize=6, loc="lower right", framealpha=0.9)
+    legend.get_frame().set_facecolor("0.55")  # the white limit line must show in the key
     return ax
 
 
