@@ -60,9 +60,36 @@ def barrier_placement(
             f"q-axis point, end angle below {math.degrees(math.acos(min(1, r_axis / r_end))):.3g}"
             " deg"
         )
-    # Circle through (r_axis, 0) and (end_x, end_y) with its centre on the x-axis.
-    centre = (r_end**2 - r_axis**2) / (2 * (end_x - r_axis))
+    centre = _arc_centre(r_axis, r_end, barrier.end_angle)
+    r_rib, half = rotor_radius - rotor.tangential_rib, barrier.width / 2
+    if not _reaches_rib(r_axis, r_end, half, r_rib, barrier.end_angle):
+        # the barrier is the half ring x <= centre (see barrier_shape); its farthest point
+        # from the origin is the outer edge at x = centre
+        lo, hi = 0.0, math.acos(min(1.0, r_axis / r_end))
+        for _ in range(50):  # bisection for the smallest end angle that reaches the rib
+            mid = 0.5 * (lo + hi)
+            lo, hi = (lo, mid) if _reaches_rib(r_axis, r_end, half, r_rib, mid) else (mid, hi)
+        raise GeometryError(
+            f"{key}.end_angle_deg = {math.degrees(barrier.end_angle):.4g}: too small for "
+            f"depth_mm = {barrier.depth * 1e3:.4g} and width_mm = {barrier.width * 1e3:.4g}; "
+            "the arc turns back towards the q-axis before the barrier reaches its "
+            f"tangential rib, end angle above {math.degrees(hi):.4g} deg"
+        )
     return BarrierPlacement(r_axis, end_x, end_y, centre, centre - r_axis)
+
+
+def _arc_centre(r_axis: float, r_end: float, end_angle: float) -> float:
+    """x of the circle through (r_axis, 0) and the end point with its centre on the x-axis."""
+    return (r_end**2 - r_axis**2) / (2 * (r_end * math.cos(end_angle) - r_axis))
+
+
+def _reaches_rib(r_axis: float, r_end: float, half: float, r_rib: float, end_angle: float
+                 ) -> bool:
+    """Whether the outer edge of an arc barrier's half ring gets out to the rib circle."""
+    if r_end * math.cos(end_angle) <= r_axis:
+        return True  # no arc at all; reported by the caller
+    centre = _arc_centre(r_axis, r_end, end_angle)
+    return centre**2 + (centre - r_axis + half) ** 2 >= r_rib**2
 
 
 def barrier_shape(rotor: RotorSpec, rotor_radius: float, barrier: BarrierSpec, key: str) -> Shape:
