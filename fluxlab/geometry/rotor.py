@@ -75,7 +75,17 @@ def barrier_placement(
             "the arc turns back towards the q-axis before the barrier reaches its "
             f"tangential rib, end angle above {math.degrees(hi):.4g} deg"
         )
-    return BarrierPlacement(r_axis, end_x, end_y, centre, centre - r_axis)
+    radius = centre - r_axis
+    if 2 * (radius - half) < rotor.min_steel:
+        # the steel inside the arc, between the barrier and the surface, is 2 (radius -
+        # width/2) across; below zero the ring has no inner edge at all
+        raise GeometryError(
+            f"{key}.width_mm = {barrier.width * 1e3:.4g}: leaves "
+            f"{2 * (radius - half) * 1e3:.4g} mm of steel inside the barrier's arc (centre-"
+            f"line radius {radius * 1e3:.4g} mm, from depth_mm and end_angle_deg), less "
+            f"than rotor.min_steel_mm = {rotor.min_steel * 1e3:.4g}"
+        )
+    return BarrierPlacement(r_axis, end_x, end_y, centre, radius)
 
 
 def _arc_centre(r_axis: float, r_end: float, end_angle: float) -> float:
