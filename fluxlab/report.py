@@ -59,9 +59,15 @@ def _table(ax, rows) -> None:
     table.scale(1.08, 1.22)
 
 
-def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None) -> Path:
-    """Write the A4 landscape review sheet of ``evaluation`` to ``path`` (PDF)."""
+def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
+                       envelope=None) -> Path:
+    """Write the A4 landscape review sheet of ``evaluation`` to ``path`` (PDF).
+
+    With an ``envelope`` result (:func:`fluxlab.envelope.envelope_study`) a second page
+    shows the operating envelope, losses and rib stress.
+    """
     import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_pdf import PdfPages
 
     from .plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
     from .plots_field import plot_outline
@@ -105,6 +111,11 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None) 
         a.xaxis.label.set_fontsize(8)
         a.yaxis.label.set_fontsize(8)
     fig.text(0.05, 0.03, "Caution: " + CAUTION, fontsize=7.5, wrap=True, va="bottom")
-    fig.savefig(path)
-    plt.close(fig)
+    with PdfPages(path) as pdf:
+        pdf.savefig(fig)
+        plt.close(fig)
+        if envelope is not None:
+            from .plots_envelope import add_envelope_page
+
+            add_envelope_page(pdf, envelope)
     return path

@@ -1,6 +1,7 @@
 """The command line end to end, as a new user runs it (through main([...]))."""
 
 import json
+import re
 from pathlib import Path
 
 import pytest
@@ -61,7 +62,7 @@ def test_solve_writes_field_and_json(coarse_machine, tmp_path):
 @pytest.mark.slow  # a full (coarse) evaluation: about a minute
 def test_evaluate_writes_every_output(coarse_machine, tmp_path):
     args = ["evaluate", str(coarse_machine), "--out", str(tmp_path), "--angle-step-deg", "30",
-            "--angle-positions", "1", "--inductance-points", "2", "--workers", "1"]
+            "--angle-positions", "1", "--inductance-points", "2", "--workers", "2", "--full"]
     assert main(args) == 0
     summary = json.loads((tmp_path / "summary.json").read_text())
     for key in ("Ld_H", "Lq_H", "saliency_ratio", "torque_mean_Nm", "torque_ripple_pct",
@@ -74,6 +75,10 @@ def test_evaluate_writes_every_output(coarse_machine, tmp_path):
         assert (tmp_path / f"{name}.png").stat().st_size > 0
     for name in ("field_rated.png", "winding_layout.png", "review.pdf", "machine.toml"):
         assert (tmp_path / name).stat().st_size > 0
+    # --full: the envelope files and a second page of the review sheet
+    assert (tmp_path / "envelope").is_dir() and any((tmp_path / "envelope").glob("*.csv"))
+    pages = re.findall(rb"/Type\s*/Page[^s]", (tmp_path / "review.pdf").read_bytes())
+    assert len(pages) == 2
 
 
 def test_missing_file_is_a_clear_error(tmp_path, capsys):

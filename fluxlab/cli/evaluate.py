@@ -26,6 +26,9 @@ def add_args(parser) -> None:
                         help="rotor positions averaged per current angle (default 4)")
     parser.add_argument("--inductance-points", type=int, default=8,
                         help="currents on each saturation curve (default 8)")
+    parser.add_argument("--full", action="store_true",
+                        help="also the operating envelope (flux maps, MTPA, torque-speed, "
+                        "losses, rib stress) into DIR/envelope and review.pdf")
     parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
                         help="processes for independent studies (default: the core count)")
 
@@ -36,8 +39,12 @@ def _save(fig, out: Path, stem: str, written: list) -> None:
         written.append(out / f"{stem}.{suffix}")
 
 
-def write_evaluation(evaluation, out: Path, machine_file: Path | None = None) -> list[Path]:
-    """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths."""
+def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
+                     envelope=None) -> list[Path]:
+    """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths.
+
+    With an ``envelope`` result its files go to ``out/envelope`` and its page into the sheet.
+    """
     import matplotlib
 
     matplotlib.use("Agg")
@@ -84,8 +91,12 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None) ->
     fig.tight_layout()
     _save(fig, out, "winding_layout", written)
     plt.close(fig)
+    if envelope is not None:
+        from .envelope import write_envelope
+
+        written += write_envelope(envelope, out / "envelope")
     written.append(write_review_sheet(evaluation, out / "review.pdf",
-                                      evaluation.rated_point.solution))
+                                      evaluation.rated_point.solution, envelope))
     return written
 
 
@@ -96,8 +107,14 @@ def run(args) -> int:
                              inductance_points=args.inductance_points)
     progress = Progress()
     evaluation = evaluate(spec, settings, progress=progress, workers=args.workers)
+    envelope = None
+    if args.full:
+        from ..envelope import envelope_study
+
+        envelope = envelope_study(spec, model=evaluation.model, workers=args.workers,
+                                  progress=progress)
     progress("writing tables, figures and review.pdf")
-    written = write_evaluation(evaluation, Path(args.out), Path(args.machine))
+    written = write_evaluation(evaluation, Path(args.out), Path(args.machine), envelope)
     progress.done()
     s = evaluation.summary
     print(f"{spec.name}: Ld {s['Ld_H'] * 1e3:.2f} mH, Lq {s['Lq_H'] * 1e3:.2f} mH, "
