@@ -17,6 +17,7 @@ from .stator import slot_outline
 __all__ = ["geometry_problems"]
 
 _TOL = 1e-9  # m: geometric tolerance of the comparisons
+_FILLET_PER_SIZE = 0.01  # smallest slot fillet per mesh element size
 
 
 def _mm(x: float) -> str:
@@ -56,6 +57,16 @@ def _stator_problems(spec: MachineSpec) -> list[str]:
         problems.append(
             f"stator.slot_depth_mm = {_mm(st.slot_depth)}: too shallow for a round bottom of "
             f"radius {_mm(s.round_radius)} mm after the tip height {_mm(st.tip_height)} mm"
+        )
+    # gmsh gives a small arc about 12 edges per circle but grades nothing around it:
+    # fillets below about 1/1000 of the element size gave degenerate triangles
+    # (measured); 1/100 keeps a margin of 10
+    least = _FILLET_PER_SIZE * spec.mesh.size
+    if st.slot_bottom == "flat" and 0 < st.bottom_fillet < least:
+        problems.append(
+            f"stator.bottom_fillet_mm = {_mm(st.bottom_fillet)}: too small to mesh with "
+            f"mesh.size_mm = {_mm(spec.mesh.size)}; at least {_mm(least)} mm "
+            f"(mesh.size_mm / {1 / _FILLET_PER_SIZE:.0f}), or 0 for a sharp corner"
         )
     if st.slot_bottom == "flat" and st.bottom_fillet > min(
         s.half_width_bottom, s.x_bottom - s.x_top
