@@ -130,8 +130,9 @@ def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
     takes about 4/sqrt(3) A / h^2 triangles. ``bulk``: the sector at ``mesh.size``. ``gap``:
     the size grows from the air-gap size g with slope 1/2 away from the gap circles, on
     six sides (rotor surface and bore: both; the sliding circle's two copies: one each), so
-    int per / (g + d/2)^2 dd = 2 per / g triangles per unit of circle length and side. ``ribs``: a disc of twice the
-    rib thickness at the rib size around every rib sample point.
+    int per / (g + d/2)^2 dd = 2 per / g triangles per unit of circle length and side.
+    ``ribs``: a disc of twice the rib thickness at the rib size around every rib sample
+    point.
     """
     per = 4 / math.sqrt(3)
     r_out = spec.stator.outer_diameter / 2
