@@ -131,18 +131,26 @@ def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
     the size grows from the air-gap size g with slope 1/2 away from the gap circles, on
     six sides (rotor surface and bore: both; the sliding circle's two copies: one each), so
     int per / (g + d/2)^2 dd = 2 per / g triangles per unit of circle length and side.
-    ``ribs``: a disc of twice the rib thickness at the rib size around every rib sample
-    point.
+    ``ribs``: the rib size field (:func:`_size_field`) is the rib size h_r within 2 h_r of
+    sample points strung along each rib and post, over a length L = 2 barrier widths, then
+    grows with slope about 1/8: near the string like a line, per L (2 * 8 + 4) / h_r;
+    farther out like a point, int per 2 pi rho / (rho/8)^2 drho from L to 8 ``mesh.size``.
     """
+    from .geometry import poles_in_sector
+
     per = 4 / math.sqrt(3)
+    size = spec.mesh.size
     r_out = spec.stator.outer_diameter / 2
-    bulk = per * 0.5 * sector_angle * r_out**2 / spec.mesh.size**2
+    bulk = per * 0.5 * sector_angle * r_out**2 / size**2
     gap = 6 * 2 * per / airgap_element_size(spec) * spec.stator.bore_diameter / 2 * sector_angle
+    h_rib = rib_element_size(spec)
     ribs = 0.0
-    if spec.rotor.barriers:
-        n_points = len(_rib_points(spec, sector_angle))
-        ribs = per * n_points * math.pi * (2 * spec.rotor.tangential_rib) ** 2 \
-            / rib_element_size(spec) ** 2
+    for b in spec.rotor.barriers:
+        length = 2 * b.width
+        strings = 2 + (b.post_width > 0)  # both ends, and the post
+        one = per * (20 * length / h_rib + 128 * math.pi * math.log(max(8 * size / length, 1)))
+        ribs += strings * one
+    ribs *= poles_in_sector(spec, sector_angle)
     return {"bulk": bulk, "gap": gap, "ribs": ribs}
 
 
