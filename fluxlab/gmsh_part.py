@@ -206,6 +206,32 @@ def _extract(surface_name: dict[int, str], curves: dict[str, list]) -> PartMesh:
     return PartMesh(points, triangles, element_region, names, lines)
 
 
+_KEPT_SIGNALS = ("SIGPIPE", "SIGINT", "SIGTERM")
+
+
+def _signal_dispositions() -> dict:
+    """Python's view of the signal handlers gmsh's C++ start-up resets behind its back.
+
+    gmsh resets SIGPIPE to its default (terminate) at the C level; a later write to a pipe
+    whose reader died (a crashed worker process) would then kill this process silently.
+    """
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return {}
+    return {name: signal.getsignal(getattr(signal, name))
+            for name in _KEPT_SIGNALS if hasattr(signal, name)}
+
+
+def _restore_signals(saved: dict) -> None:
+    import signal
+
+    for name, handler in saved.items():
+        if handler is not None:
+            signal.signal(getattr(signal, name), handler)
+
+
 def mesh_part(
     regions: list[tuple[str, Shape]],
     sector_angle: float,
@@ -234,6 +260,7 @@ def mesh_part(
     import gmsh
 
     owns_gmsh = not gmsh.isInitialized()
+    saved = _signal_dispositions()
     if owns_gmsh:
         gmsh.initialize(interruptible=False)
     try:
@@ -264,3 +291,4 @@ def mesh_part(
             gmsh.finalize()
         else:
             gmsh.model.remove()
+        _restore_signals(saved)

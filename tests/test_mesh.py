@@ -143,7 +143,8 @@ def test_sliding_circle_nodes_equal_and_equally_spaced(fixture, request):
     assert np.allclose(copies[0], copies[1], atol=1e-12)
     # a study step of 1/steps_per_slot slot pitch is a whole number of segments
     per_slot = m.sliding_divisions * 2 * math.pi / (m.sector_angle * spec.stator.slots)
-    assert per_slot % spec.mesh.steps_per_slot == 0
+    assert per_slot == pytest.approx(round(per_slot), abs=1e-9)
+    assert round(per_slot) % spec.mesh.steps_per_slot == 0
 
 
 @pytest.mark.parametrize("fixture", ["demo", "pump"])
@@ -213,3 +214,23 @@ def test_inverted_or_degenerate_triangles_are_rejected():
         _check_elements(points, np.array([[0, 2, 1]]))
     with pytest.raises(MeshError, match="degenerate"):
         _check_elements(points, np.array([[0, 1, 3]]))
+
+
+def test_meshing_leaves_sigpipe_ignored():
+    # gmsh resets SIGPIPE to "terminate" in C; a process that meshed and then writes to a
+    # pipe of a crashed worker must get BrokenPipeError, not die (run in a subprocess, so a
+    # regression cannot kill the test runner).
+    import subprocess
+    import sys
+
+    code = (
+        "import os\n"
+        "from fluxlab.mesh import build_mesh\nfrom fluxlab.spec import load_machine\n"
+        f"spec = load_machine({str(GEOMETRIES / 'demo_round_rotor.toml')!r})\n"
+        "build_mesh(spec.replace_path('mesh.size_mm', 8.0))\n"
+        "r, w = os.pipe()\nos.close(r)\n"
+        "try:\n    os.write(w, b'x')\nexcept BrokenPipeError:\n    print('ok')\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert done.returncode == 0 and done.stdout.strip() == "ok", (done.returncode, done.stderr)
