@@ -9,7 +9,7 @@ STAMP := $(VENV)/.fluxlab-installed
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
-	$(BIN)/python -m pip install --quiet --disable-pip-version-check -e '.[test]'
+	$(BIN)/python -m pip install --quiet --disable-pip-version-check -e '.[test,fast]'
 	touch $(STAMP)
 
 demo: $(STAMP)

@@ -16,6 +16,7 @@ import numpy as np
 
 from . import __version__
 from .model import MachineModel, build_model
+from .solver import linear_backend
 from .spec import MachineSpec
 from .studies import (
     InductanceCurves,
@@ -114,7 +115,8 @@ def _summary(spec, model, settings, angle, ripple, angle_studies, point, elapsed
         "element_order": spec.mesh.element_order,
         "sector_deg": math.degrees(model.mesh.sector_angle),
         "rotor_step_deg": math.degrees(model.step_angle),
-        "solver": {"newton_rtol": 1e-8, "linear_solver": "scipy splu (symmetric mode)"},
+        "solver": {"newton_rtol": 1e-8,
+                   "linear_solver": linear_backend(model.problem, model.linear_solver).describe()},
         "studies": settings.studies,
         "conventions": "peak phase currents; amplitude-invariant Park transform; current "
                        "angle from the d-axis; d-axis = least reluctance; saliency = Ld/Lq",
@@ -163,13 +165,14 @@ def evaluate(
     progress: Callable[[str], None] | None = None,
     model: MachineModel | None = None,
     workers: int = 1,
+    linear_solver: str = "auto",
 ) -> Evaluation:
     """Evaluate a candidate: model once, then the studies (see :class:`StudySettings`).
 
     The rated point uses ``operating.current_peak_A`` at ``operating.current_angle_deg``, or
     at the MTPA angle of the rated-current study when the angle is not given. ``workers``
     > 1 runs the independent studies in that many processes (leave it at 1 inside a sweep
-    that already uses the cores).
+    that already uses the cores). ``linear_solver``: see :class:`fluxlab.model.MachineModel`.
     """
     from .study_pool import run_tasks
 
@@ -177,7 +180,7 @@ def evaluate(
     say = progress or (lambda message: None)
     start = time.perf_counter()
     say("meshing and assembling")
-    model = model or build_model(spec)
+    model = model or build_model(spec, linear_solver=linear_solver)
     timings = {"model": time.perf_counter() - start}
     op = spec.operating
     angle = op.current_angle

@@ -56,6 +56,9 @@ class MachineModel:
     axis_error
         Mechanical angle, rad, by which ``axis_step`` misses the exact phase-a axis (zero
         when the axis falls on a step, as for integral-slot windings).
+    linear_solver
+        Sparse direct solver of every solve of this model: ``"auto"`` (MKL PARDISO when
+        installed, else scipy SuperLU), ``"scipy"`` or ``"pardiso"``.
     """
 
     spec: MachineSpec
@@ -65,6 +68,7 @@ class MachineModel:
     conductor_weight: np.ndarray
     axis_step: int
     axis_error: float
+    linear_solver: str = "auto"
 
     @property
     def step_angle(self) -> float:
@@ -102,8 +106,12 @@ def _conductor_weight(spec: MachineSpec, machine: MachineMesh, layout, areas) ->
     return weight
 
 
-def build_model(spec: MachineSpec, mesh: MachineMesh | None = None) -> MachineModel:
-    """Mesh (unless given) and assemble a machine once, for any current and rotor step."""
+def build_model(spec: MachineSpec, mesh: MachineMesh | None = None,
+                linear_solver: str = "auto") -> MachineModel:
+    """Mesh (unless given) and assemble a machine once, for any current and rotor step.
+
+    ``linear_solver`` is checked here (SpecError for an unknown or missing backend).
+    """
     machine = build_mesh(spec) if mesh is None else mesh
     materials, element_material = _element_materials(spec, machine)
     problem = make_problem(machine, materials, element_material, order=spec.mesh.element_order)
@@ -119,7 +127,11 @@ def build_model(spec: MachineSpec, mesh: MachineMesh | None = None) -> MachineMo
     if abs(axis_error) > 1e-9:
         log.warning("phase-a axis %.4f deg is %.4f deg off the nearest rotor step",
                     math.degrees(axis), math.degrees(axis_error))
-    return MachineModel(spec, machine, problem, layout, weight, axis_step, axis_error)
+    from .solver import linear_backend
+
+    linear_backend(problem, linear_solver)  # fail early on a bad name
+    return MachineModel(spec, machine, problem, layout, weight, axis_step, axis_error,
+                        linear_solver)
 
 
 def rotor_step(model: MachineModel, position: float) -> int:

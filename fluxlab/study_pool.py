@@ -41,11 +41,11 @@ def single_thread_blas() -> Iterator[None]:
                 os.environ[key] = value
 
 
-def _init_worker(spec, mesh) -> None:
+def _init_worker(spec, mesh, linear_solver) -> None:
     global _worker_model
     from .model import build_model
 
-    _worker_model = build_model(spec, mesh)
+    _worker_model = build_model(spec, mesh, linear_solver)
 
 
 def _run_in_worker(function: Callable, args: tuple):
@@ -70,7 +70,7 @@ def run_tasks(model, tasks: list[Task], workers: int = 1,
     results = {}
     with single_thread_blas(), ProcessPoolExecutor(
         max_workers=min(workers, len(tasks)), mp_context=context,
-        initializer=_init_worker, initargs=(model.spec, model.mesh),
+        initializer=_init_worker, initargs=(model.spec, model.mesh, model.linear_solver),
     ) as pool:
         futures = {pool.submit(_run_in_worker, f, args): name for name, f, args in tasks}
         for future in as_completed(futures):

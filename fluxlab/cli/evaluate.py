@@ -18,6 +18,9 @@ __all__ = ["add_args", "run", "write_evaluation"]
 def add_args(parser) -> None:
     parser.add_argument("machine", help="machine file (TOML)")
     parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--linear-solver", choices=("auto", "scipy", "pardiso"), default="auto",
+                        help="sparse direct solver: auto (PARDISO when installed), scipy, "
+                        "pardiso")
     parser.add_argument("--studies", choices=("full", "point"), default="full",
                         help="full evaluation (default) or the rated point only")
     parser.add_argument("--angle-step-deg", type=float, default=10.0,
@@ -106,7 +109,8 @@ def run(args) -> int:
                              angle_positions=args.angle_positions,
                              inductance_points=args.inductance_points)
     progress = Progress()
-    evaluation = evaluate(spec, settings, progress=progress, workers=args.workers)
+    evaluation = evaluate(spec, settings, progress=progress, workers=args.workers,
+                          linear_solver=args.linear_solver)
     envelope = None
     if args.full:
         from ..envelope import envelope_study

@@ -22,6 +22,9 @@ def add_args(parser) -> None:
     parser.add_argument("--position-deg", type=float, default=0.0,
                         help="rotor position, mechanical deg from d-axis on phase-a axis")
     parser.add_argument("--out", required=True, help="output folder")
+    parser.add_argument("--linear-solver", choices=("auto", "scipy", "pardiso"), default="auto",
+                        help="sparse direct solver: auto (PARDISO when installed), scipy, "
+                        "pardiso")
 
 
 def point_record(model, point) -> dict:
@@ -59,7 +62,7 @@ def run(args) -> int:
     from ..plots_field import plot_field
 
     spec = load_machine(args.machine)
-    model = build_model(spec)
+    model = build_model(spec, linear_solver=args.linear_solver)
     step = rotor_step(model, math.radians(args.position_deg))
     point = solve_point(model, args.current_A, math.radians(args.current_angle_deg), step)
     out = Path(args.out)
