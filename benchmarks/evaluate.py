@@ -1,0 +1,82 @@
+"""Wall time of the full demo evaluation (the work of `make demo`), with a breakdown.
+
+Prints meshing, model set-up, the studies (solve count and Newton iterations), the
+post-processing into files and plotting, the peak resident memory, and last
+`evaluate wall s: X`. Run: .venv/bin/python benchmarks/evaluate.py [--workers N]
+"""
+
+from __future__ import annotations
+
+import argparse
+import resource
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+MACHINE = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
+
+
+def _peak_rss_mib() -> float:
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    return max(own, children) / 1024  # ru_maxrss is in KiB on Linux
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__)
+    parser.add_argument("--workers", type=int, default=2)
+    parser.add_argument("--linear-solver", default="auto")
+    args = parser.parse_args()
+
+    from threadpoolctl import threadpool_limits
+
+    import fluxlab
+    from fluxlab.cli.evaluate import write_evaluation
+    from fluxlab.mesh import build_mesh
+    from fluxlab.model import build_model
+    from fluxlab.solver import linear_backend
+
+    start = time.perf_counter()
+    with threadpool_limits(limits=1):
+        spec = fluxlab.load_machine(MACHINE)
+        t0 = time.perf_counter()
+        mesh = build_mesh(spec)
+        t_mesh = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        model = build_model(spec, mesh, args.linear_solver)
+        t_model = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        evaluation = fluxlab.evaluate(spec, model=model, workers=args.workers)
+        t_studies = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        with tempfile.TemporaryDirectory() as out:
+            write_evaluation(evaluation, Path(out), MACHINE)
+        t_write = time.perf_counter() - t0
+    wall = time.perf_counter() - start
+    solves = iterations = 0
+    ripple = evaluation.torque_vs_position
+    solves += len(ripple.iterations)
+    iterations += int(np.sum(ripple.iterations))
+    angle_solves = sum(len(s.current_angle_deg) * s.positions for s in evaluation.torque_vs_angle)
+    inductance_solves = 2 * len(evaluation.inductances.current_peak_A)
+    s = evaluation.summary
+    print(f"fluxlab {fluxlab.__version__}, numpy {np.__version__}")
+    print(f"mesh: {s['nodes']} nodes, {s['elements']} elements, P{s['element_order']}")
+    print(f"linear solver: {linear_backend(model.problem, model.linear_solver).describe()}")
+    print(f"workers: {args.workers}")
+    print(f"meshing            {t_mesh:7.2f} s")
+    print(f"model set-up       {t_model:7.2f} s")
+    print(f"studies            {t_studies:7.2f} s  ({solves} ripple solves, {iterations} Newton "
+          f"steps; {angle_solves} current-angle and {inductance_solves} inductance solves)")
+    print(f"tables, figures, review.pdf {t_write:7.2f} s")
+    print(f"peak resident memory {_peak_rss_mib():.0f} MiB (largest of this process and a worker)")
+    print("summary: " + ", ".join(f"{k} {s[k]:.6g}" for k in (
+        "Ld_H", "Lq_H", "saliency_ratio", "torque_mean_Nm", "torque_ripple_pct",
+        "mtpa_angle_deg", "power_factor")))
+    print(f"evaluate wall s: {wall:.1f}")
+
+
+if __name__ == "__main__":
+    main()
