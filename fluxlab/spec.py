@@ -10,7 +10,6 @@ and radians. Every problem found in a file is reported together in one :class:`S
 from __future__ import annotations
 
 import copy
-import re
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -442,37 +441,14 @@ def load_machine(path: str | Path) -> MachineSpec:
     return machine_from_dict(raw, base_dir=path.parent)
 
 
-_PATH_PART = re.compile(r"([A-Za-z_][A-Za-z0-9_]*)(?:\[(\d+)\])?")
-
-
 def replace_path(spec: MachineSpec, path: str, value: Any) -> MachineSpec:
     """A copy of ``spec`` with the file-level key at ``path`` set to ``value``, re-validated.
 
     ``path`` uses the file's own names and units, for example
-    ``"rotor.barriers[1].end_angle_deg"``.
+    ``"rotor.barriers[1].end_angle_deg"`` (see :mod:`fluxlab.keypath`).
     """
+    from .keypath import set_path
+
     raw = copy.deepcopy(spec.raw)
-    node: Any = raw
-    parts = path.split(".")
-    for depth, part in enumerate(parts):
-        match = _PATH_PART.fullmatch(part)
-        if not match:
-            raise SpecError(f"{path}: not a key path (use names like rotor.barriers[1].width_mm)")
-        name, index = match.group(1), match.group(2)
-        last = depth == len(parts) - 1 and index is None
-        if last:
-            if not isinstance(node, dict):
-                raise SpecError(f"{path}: {'.'.join(parts[:depth])} is not a table")
-            node[name] = value
-            break
-        if not isinstance(node, dict) or name not in node:
-            raise SpecError(f"{path}: no key {name!r} in the machine file")
-        node = node[name]
-        if index is not None:
-            if not isinstance(node, list) or int(index) >= len(node):
-                raise SpecError(f"{path}: index {index} out of range for {name}")
-            if depth == len(parts) - 1:
-                node[int(index)] = value
-                break
-            node = node[int(index)]
+    set_path(raw, path, value)
     return machine_from_dict(raw, spec.base_dir)

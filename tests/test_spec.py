@@ -76,7 +76,7 @@ def test_replace_path_returns_a_revalidated_copy(demo_raw):
     assert spec.rotor.barriers[1].end_angle == pytest.approx(math.radians(24.0))
     with pytest.raises(SpecError, match=r"rotor.barriers\[1\].width_mm"):
         spec.replace_path("rotor.barriers[1].width_mm", -1.0)
-    with pytest.raises(SpecError, match="no key"):
+    with pytest.raises(SpecError, match="has no rotor.nothing"):
         spec.replace_path("rotor.nothing.width_mm", 1.0)
 
 

@@ -13,7 +13,7 @@ import hashlib
 import json
 from dataclasses import dataclass
 
-from .paths import set_path
+from ..keypath import set_path
 from .plan import plan_points
 from .sweepfile import SweepSpec
 

@@ -38,7 +38,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import SpecError
-from .paths import get_path, key_kind, parse_path, set_path
+from ..keypath import get_path, key_kind, parse_path, set_path
 
 if sys.version_info >= (3, 11):
     import tomllib

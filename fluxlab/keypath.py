@@ -10,7 +10,7 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from ..errors import SpecError
+from .errors import SpecError
 
 __all__ = ["parse_path", "path_prefix", "key_kind", "get_path", "set_path"]
 
@@ -46,7 +46,7 @@ def parse_path(path: str) -> list[str | int]:
 def _schema() -> dict[str, tuple]:
     # The key tables of the machine file, to know a key's type even when the base file
     # leaves it at its default (rotor.barriers[0].post_mm, for instance).
-    from .. import spec as s
+    from . import spec as s
 
     return {
         "machine": s.MACHINE_KEYS,
