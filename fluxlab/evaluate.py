@@ -24,7 +24,10 @@ from .studies import (
     TorqueVsAngle,
     TorqueVsPosition,
     inductance_curves,
+    position_study,
     power_factor,
+    ripple_steps,
+    solve_positions,
     torque_vs_current_angle,
     torque_vs_position,
 )
@@ -115,7 +118,7 @@ def _summary(spec, model, settings, angle, ripple, angle_studies, point, elapsed
         "element_order": spec.mesh.element_order,
         "sector_deg": math.degrees(model.mesh.sector_angle),
         "rotor_step_deg": math.degrees(model.step_angle),
-        "solver": {"newton_rtol": 1e-8,
+        "solver": {"newton_rtol": model.newton_rtol,
                    "linear_solver": linear_backend(model.problem, model.linear_solver).describe()},
         "studies": settings.studies,
         "conventions": "peak phase currents; amplitude-invariant Park transform; current "
@@ -130,18 +133,33 @@ def ripple_means(ripple: TorqueVsPosition) -> tuple[float, float]:
     return float(ripple.psi_d_Wb.mean()), float(ripple.psi_q_Wb.mean())
 
 
-def _ripple_task(model, current, angle):
-    return torque_vs_position(model, current, angle)
-
-
 def _point_task(model, current, angle, positions):
-    from .studies import ripple_steps
-
     return torque_vs_position(model, current, angle, ripple_steps(model, positions))
 
 
-def _full_tasks(spec, settings, angle) -> list:
-    op = spec.operating
+_RIPPLE = "torque vs position"
+
+
+def _ripple_tasks(model, current, angle, pieces: int) -> list:
+    """The ripple study as ``pieces`` chains of neighbouring positions, one task each: short
+    tasks keep both cores busy to the end (a piece costs one cold start more)."""
+    chains = [c for c in np.array_split(ripple_steps(model), pieces) if c.size]
+    return [(f"{_RIPPLE}, part {k + 1}/{len(chains)}", solve_positions, (current, angle, c))
+            for k, c in enumerate(chains)]
+
+
+def _ripple_result(model, done: dict) -> tuple[TorqueVsPosition, list[PointResult]]:
+    """The ripple study from its finished chains (:func:`_ripple_tasks`), in step order."""
+    points = [pt for name in sorted((k for k in done if k.startswith(_RIPPLE)),
+                                    key=lambda k: int(k.rsplit(" ", 1)[1].split("/")[0]))
+              for pt in done[name]]
+    return position_study(model, points), points
+
+
+def _full_tasks(model, settings, angle, workers: int) -> list:
+    """The independent studies, the longest first: the current-angle studies, the ripple
+    chains, the saturation curves."""
+    op = model.spec.operating
     tasks = []
     for label, current in (("overload", op.overload_current_peak_A),
                            ("rated", op.current_peak_A)):
@@ -149,7 +167,7 @@ def _full_tasks(spec, settings, angle) -> list:
             tasks.append((f"torque vs current angle, {label}", torque_vs_current_angle,
                           (current, settings.angle_step_deg, settings.angle_positions)))
     if angle is not None:
-        tasks.append(("torque vs position", _ripple_task, (op.current_peak_A, angle)))
+        tasks += _ripple_tasks(model, op.current_peak_A, angle, workers + 1 if workers > 1 else 1)
     currents = op.current_peak_A * np.linspace(
         settings.inductance_min_fraction, settings.inductance_max_fraction,
         settings.inductance_points)
@@ -191,15 +209,15 @@ def evaluate(
         ripple, points = _point_task(model, op.current_peak_A, angle, settings.angle_positions)
     else:
         say(f"running the studies in {workers} process(es)")
-        done = run_tasks(model, _full_tasks(spec, settings, angle), workers, say)
+        done = run_tasks(model, _full_tasks(model, settings, angle, workers), workers, say)
         angle_studies = [done[k] for k in ("torque vs current angle, rated",
                                            "torque vs current angle, overload") if k in done]
         curves = done["inductance curves"]
         if angle is None:
             angle = math.radians(angle_studies[0].mtpa_angle_deg)
-            done.update(run_tasks(model, [("torque vs position", _ripple_task,
-                                           (op.current_peak_A, angle))], 1, say))
-        ripple, points = done["torque vs position"]
+            done.update(run_tasks(model, _ripple_tasks(model, op.current_peak_A, angle,
+                                                       workers), workers, say))
+        ripple, points = _ripple_result(model, done)
     timings["studies"] = time.perf_counter() - start - timings["model"]
     point = points[0]
     summary = _summary(spec, model, settings, angle, ripple, angle_studies, point,

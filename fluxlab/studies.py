@@ -24,6 +24,8 @@ __all__ = [
     "ripple_steps",
     "TorqueVsPosition",
     "torque_vs_position",
+    "solve_positions",
+    "position_study",
     "TorqueVsAngle",
     "torque_vs_current_angle",
     "InductanceCurves",
@@ -69,7 +71,7 @@ def solve_point(
     theta_e = p * position
     i_abc = phase_currents(current_peak, current_angle, theta_e)
     solution = solve_field(model.problem, current_density(model, i_abc), step, initial=initial,
-                           linear_solver=model.linear_solver)
+                           rtol=model.newton_rtol, linear_solver=model.linear_solver)
     psi_d, psi_q = park(flux_linkage_abc(model, solution), theta_e)
     i_d, i_q = current_peak * math.cos(current_angle), current_peak * math.sin(current_angle)
     return PointResult(
@@ -161,15 +163,18 @@ def _harmonics(model: MachineModel, torque: np.ndarray, mean: float):
     return np.round(orders[keep], 6), spectrum[keep]
 
 
-def torque_vs_position(
+def solve_positions(
     model: MachineModel,
     current_peak: float,
     current_angle: float,
-    steps: Sequence[int] | None = None,
+    steps: Sequence[int],
     progress: Progress | None = None,
-) -> tuple[TorqueVsPosition, list[PointResult]]:
-    """Torque over one torque period (see :func:`torque_period`), warm-started step to step."""
-    steps = ripple_steps(model) if steps is None else np.asarray(steps)
+) -> list[PointResult]:
+    """Operating points at ``steps`` in order, each started from the one before.
+
+    A chain can be cut into pieces solved apart (in parallel): each piece costs one cold
+    start more, and the results agree within the Newton tolerance.
+    """
     points, initial = [], None
     for k, step in enumerate(steps):
         point = solve_point(model, current_peak, current_angle, int(step), initial)
@@ -177,12 +182,17 @@ def torque_vs_position(
         points.append(point)
         if progress:
             progress(f"torque vs position {k + 1}/{len(steps)}")
+    return points
+
+
+def position_study(model: MachineModel, points: Sequence[PointResult]) -> TorqueVsPosition:
+    """The torque-versus-position result of points at one dq current over a torque period."""
     torque = np.array([pt.torque_maxwell_Nm for pt in points])
     mean = float(torque.mean())
     orders, amplitudes = _harmonics(model, torque, mean)
-    result = TorqueVsPosition(
-        current_peak_A=current_peak,
-        current_angle_deg=math.degrees(current_angle),
+    return TorqueVsPosition(
+        current_peak_A=points[0].current_peak_A,
+        current_angle_deg=math.degrees(points[0].current_angle),
         position_deg=np.degrees([pt.position for pt in points]),
         torque_Nm=torque,
         torque_dq_Nm=np.array([pt.torque_dq_Nm for pt in points]),
@@ -194,7 +204,19 @@ def torque_vs_position(
         harmonic_amplitudes_Nm=amplitudes,
         iterations=np.array([pt.iterations for pt in points]),
     )
-    return result, points
+
+
+def torque_vs_position(
+    model: MachineModel,
+    current_peak: float,
+    current_angle: float,
+    steps: Sequence[int] | None = None,
+    progress: Progress | None = None,
+) -> tuple[TorqueVsPosition, list[PointResult]]:
+    """Torque over one torque period (see :func:`torque_period`), warm-started step to step."""
+    steps = ripple_steps(model) if steps is None else np.asarray(steps)
+    points = solve_positions(model, current_peak, current_angle, steps, progress)
+    return position_study(model, points), points
 
 
 @dataclass(frozen=True, eq=False)

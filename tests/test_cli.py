@@ -55,7 +55,8 @@ def test_solve_writes_field_and_json(coarse_machine, tmp_path):
             "--position-deg", "0", "--out", str(tmp_path)]
     assert main(args) == 0
     record = json.loads((tmp_path / "solve.json").read_text())
-    assert record["torque_maxwell_Nm"] > 0 and record["newton_relative_residuals"][-1] < 1e-8
+    assert record["torque_maxwell_Nm"] > 0
+    assert record["newton_relative_residuals"][-1] <= record["newton_rtol"] <= 1e-5
     assert (tmp_path / "field.png").stat().st_size > 0
 
 

@@ -46,6 +46,7 @@ def point_record(model, point) -> dict:
         "coenergy_J": model.scale * sol.coenergy_per_m,
         "b_max_T": float(sol.b_norm.max()),
         "newton_iterations": sol.iterations,
+        "newton_rtol": model.newton_rtol,
         "newton_relative_residuals": list(sol.history),
         "nodes": int(model.mesh.mesh.p.shape[1]),
         "element_order": model.spec.mesh.element_order,
