@@ -146,7 +146,9 @@ def _draw_axes_marks(ax, machine: MachineMesh, poles: int, rotor_angle: float, r
 def _draw_part(ax, machine: MachineMesh, elements, turn, facets, b, a_node, levels, norm,
                clip):
     """|B| cells, flux lines and outline of one part of the mesh, turned by ``turn`` rad."""
-    from matplotlib.collections import LineCollection, PolyCollection
+    from matplotlib.collections import PolyCollection
+    from matplotlib.patches import PathPatch
+    from matplotlib.path import Path
     from matplotlib.tri import Triangulation
 
     p_mm = machine.mesh.p.T * 1e3
@@ -155,15 +157,18 @@ def _draw_part(ax, machine: MachineMesh, elements, turn, facets, b, a_node, leve
     local = local.reshape(t_part.shape)
     xy = _turned(p_mm[nodes], turn)
     cells = PolyCollection(xy[local], array=b[elements], cmap=_FIELD_CMAP, norm=norm,
-                           edgecolors="face", linewidths=0.1, zorder=1,
+                           edgecolors="none", antialiased=False, zorder=1,
                            rasterized=True)  # thousands of cells: keep SVG/PDF small
     ax.add_collection(cells, autolim=False)  # the limits come from the sector frame
     lines = ax.tricontour(Triangulation(xy[:, 0], xy[:, 1], local), a_node[nodes],
                           levels=levels, colors="k", linewidths=0.55,
                           negative_linestyles="solid", zorder=2)
     segments = _turned(p_mm[machine.mesh.facets[:, facets].T], turn)  # (n, 2, 2)
-    edges = LineCollection(segments, colors=_OUTLINE_COLOUR, linewidths=0.6, zorder=3)
-    ax.add_collection(edges, autolim=False)
+    # one path of move-draw pairs: a vector file gets one object, not thousands of lines
+    codes = np.tile([Path.MOVETO, Path.LINETO], len(segments))
+    edges = PathPatch(Path(segments.reshape(-1, 2), codes), fill=False,
+                      edgecolor=_OUTLINE_COLOUR, linewidth=0.6, zorder=3)
+    ax.add_patch(edges)
     for artist in (cells, lines, edges):
         artist.set_clip_path(clip)
     return cells
