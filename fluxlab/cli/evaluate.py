@@ -36,71 +36,103 @@ def add_args(parser) -> None:
                         help="processes for independent studies (default: the core count)")
 
 
-def _save(fig, out: Path, stem: str, written: list) -> None:
-    for suffix in ("png", "pdf"):
-        fig.savefig(out / f"{stem}.{suffix}", dpi=170)
-        written.append(out / f"{stem}.{suffix}")
-
-
-def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
-                     envelope=None) -> list[Path]:
-    """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths.
-
-    With an ``envelope`` result its files go to ``out/envelope`` and its page into the sheet.
-    """
-    import matplotlib
-
-    matplotlib.use("Agg")
+def _save(fig, out: Path, stem: str) -> list[Path]:
+    """The figure as PNG and PDF; closes it."""
     import matplotlib.pyplot as plt
 
-    from ..plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
-    from ..plots_field import plot_field
-    from ..plots_winding import plot_winding_layout
-    from ..report import CAUTION, write_review_sheet
+    paths = [out / f"{stem}.{suffix}" for suffix in ("png", "pdf")]
+    for path in paths:
+        fig.savefig(path, dpi=170)
+    plt.close(fig)
+    return paths
+
+
+def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
+    """summary.json, a copy of the machine file and the CSV tables."""
+    from ..report import CAUTION
     from ..tables import evaluation_tables, write_csv
 
-    out.mkdir(parents=True, exist_ok=True)
-    written = []
     summary = {**evaluation.summary, "caution": CAUTION}
     (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
-    written.append(out / "summary.json")
+    written = [out / "summary.json"]
     if machine_file is not None:
         shutil.copyfile(machine_file, out / "machine.toml")
         written.append(out / "machine.toml")
     for stem, columns in evaluation_tables(evaluation).items():
         written.append(write_csv(out / f"{stem}.csv", columns))
+    return written
+
+
+def _write_curves(evaluation, out: Path) -> list[Path]:
+    """The torque and inductance curves."""
+    import matplotlib.pyplot as plt
+
+    from ..plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
+
     plots = [
         ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
         ("torque_vs_current_angle", evaluation.torque_vs_angle or None, plot_torque_vs_angle),
         ("inductance_vs_current", evaluation.inductances, plot_inductances),
     ]
+    written = []
     for stem, data, plot in plots:
         if data is not None:
             fig, ax = plt.subplots(figsize=(7, 4.3))
             plot(data, ax=ax)
             fig.tight_layout()
-            _save(fig, out, stem, written)
-            plt.close(fig)
+            written += _save(fig, out, stem)
+    return written
+
+
+def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
+    """The field at the rated point and the winding layout."""
+    import matplotlib.pyplot as plt
+
+    from ..plots_field import plot_field
+    from ..plots_winding import plot_winding_layout
+
     fig, ax = plt.subplots(figsize=(8, 7.5))
     plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)
     s = evaluation.summary
     ax.set_title(f"Field at the rated point: {s['current_peak_A']:g} A peak, "
                  f"γ = {s['current_angle_deg']:.1f} deg, rotor position 0", fontsize=10)
     fig.tight_layout()
-    _save(fig, out, "field_rated", written)
-    plt.close(fig)
+    written = _save(fig, out, "field_rated")
     fig, ax = plt.subplots(figsize=(11, 3.2))
     plot_winding_layout(evaluation.model.layout, ax=ax)
     fig.tight_layout()
-    _save(fig, out, "winding_layout", written)
-    plt.close(fig)
+    return written + _save(fig, out, "winding_layout")
+
+
+def _write_sheet(evaluation, out: Path, envelope) -> list[Path]:
+    from ..report import write_review_sheet
+
+    return [write_review_sheet(evaluation, out / "review.pdf",
+                               evaluation.rated_point.solution, envelope)]
+
+
+def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
+                     envelope=None, parallel: bool = True) -> list[Path]:
+    """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths.
+
+    With an ``envelope`` result its files go to ``out/envelope`` and its page into the sheet.
+    ``parallel``: draw in two processes (see :mod:`fluxlab.forked`); the tables and the
+    summary are written first, so a failing figure never costs them.
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from ..forked import run_jobs
+
+    out.mkdir(parents=True, exist_ok=True)
+    written = _write_data(evaluation, out, machine_file)
+    jobs = [lambda: _write_sheet(evaluation, out, envelope) + _write_curves(evaluation, out),
+            lambda: _write_field_and_winding(evaluation, out)]
     if envelope is not None:
         from .envelope import write_envelope
 
-        written += write_envelope(envelope, out / "envelope")
-    written.append(write_review_sheet(evaluation, out / "review.pdf",
-                                      evaluation.rated_point.solution, envelope))
-    return written
+        jobs.append(lambda: write_envelope(envelope, out / "envelope"))
+    return written + run_jobs(jobs, parallel)
 
 
 def run(args) -> int:
