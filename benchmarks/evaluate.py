@@ -34,27 +34,21 @@ def main() -> None:
 
     import fluxlab
     from fluxlab.cli.evaluate import write_evaluation
-    from fluxlab.mesh import build_mesh
-    from fluxlab.model import build_model
     from fluxlab.solver import linear_backend
 
     start = time.perf_counter()
     with threadpool_limits(limits=1):
         spec = fluxlab.load_machine(MACHINE)
-        t0 = time.perf_counter()
-        mesh = build_mesh(spec)
-        t_mesh = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        model = build_model(spec, mesh, args.linear_solver)
-        t_model = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        evaluation = fluxlab.evaluate(spec, model=model, workers=args.workers)
-        t_studies = time.perf_counter() - t0
+        # the same call as `fluxlab evaluate`: the study workers start while this meshes
+        evaluation = fluxlab.evaluate(spec, workers=args.workers,
+                                      linear_solver=args.linear_solver)
         t0 = time.perf_counter()
         with tempfile.TemporaryDirectory() as out:
             write_evaluation(evaluation, Path(out), MACHINE)
         t_write = time.perf_counter() - t0
     wall = time.perf_counter() - start
+    model = evaluation.model
+    t_mesh, t_model, t_studies = (evaluation.timings_s[k] for k in ("mesh", "model", "studies"))
     solves = iterations = 0
     ripple = evaluation.torque_vs_position
     solves += len(ripple.iterations)

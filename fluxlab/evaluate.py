@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import __version__
+from .mesh import build_mesh
 from .model import MachineModel, build_model
 from .solver import linear_backend
 from .spec import MachineSpec
@@ -71,7 +72,11 @@ class StudySettings:
 
 @dataclass(frozen=True, eq=False)
 class Evaluation:
-    """Results of one evaluation. ``summary`` holds the key figures (JSON-able)."""
+    """Results of one evaluation. ``summary`` holds the key figures (JSON-able).
+
+    ``timings_s``: wall time in s of ``mesh`` (absent when a model was given), ``model``
+    (assembly) and ``studies`` (the solves and their post-processing).
+    """
 
     spec: MachineSpec
     model: MachineModel
@@ -192,33 +197,40 @@ def evaluate(
     > 1 runs the independent studies in that many processes (leave it at 1 inside a sweep
     that already uses the cores). ``linear_solver``: see :class:`fluxlab.model.MachineModel`.
     """
-    from .study_pool import run_tasks
+    from .study_pool import StudyPool
 
     settings = settings or StudySettings(**({"studies": studies} if studies else {}))
     say = progress or (lambda message: None)
     start = time.perf_counter()
-    say("meshing and assembling")
-    model = model or build_model(spec, linear_solver=linear_solver)
-    timings = {"model": time.perf_counter() - start}
     op = spec.operating
     angle = op.current_angle
     angle_studies: list[TorqueVsAngle] = []
     curves = None
-    if settings.studies == "point":
-        angle = math.pi / 4 if angle is None else angle
-        ripple, points = _point_task(model, op.current_peak_A, angle, settings.angle_positions)
-    else:
-        say(f"running the studies in {workers} process(es)")
-        done = run_tasks(model, _full_tasks(model, settings, angle, workers), workers, say)
-        angle_studies = [done[k] for k in ("torque vs current angle, rated",
-                                           "torque vs current angle, overload") if k in done]
-        curves = done["inductance curves"]
-        if angle is None:
-            angle = math.radians(angle_studies[0].mtpa_angle_deg)
-            done.update(run_tasks(model, _ripple_tasks(model, op.current_peak_A, angle,
-                                                       workers), workers, say))
-        ripple, points = _ripple_result(model, done)
-    timings["studies"] = time.perf_counter() - start - timings["model"]
+    # the workers start now and import their libraries while this process meshes
+    with StudyPool(workers if settings.studies == "full" else 1) as pool:
+        say("meshing and assembling")
+        timings = {}
+        if model is None:
+            mesh = build_mesh(spec)
+            timings["mesh"] = time.perf_counter() - start
+            model = build_model(spec, mesh, linear_solver)
+        timings["model"] = time.perf_counter() - start - timings.get("mesh", 0.0)
+        if settings.studies == "point":
+            angle = math.pi / 4 if angle is None else angle
+            ripple, points = _point_task(model, op.current_peak_A, angle,
+                                         settings.angle_positions)
+        else:
+            say(f"running the studies in {pool.workers} process(es)")
+            done = pool.run(model, _full_tasks(model, settings, angle, pool.workers), say)
+            angle_studies = [done[k] for k in ("torque vs current angle, rated",
+                                               "torque vs current angle, overload") if k in done]
+            curves = done["inductance curves"]
+            if angle is None:
+                angle = math.radians(angle_studies[0].mtpa_angle_deg)
+                done.update(pool.run(model, _ripple_tasks(model, op.current_peak_A, angle,
+                                                          pool.workers), say))
+            ripple, points = _ripple_result(model, done)
+    timings["studies"] = time.perf_counter() - start - sum(timings.values())
     point = points[0]
     summary = _summary(spec, model, settings, angle, ripple, angle_studies, point,
                        time.perf_counter() - start)

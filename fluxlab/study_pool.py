@@ -1,26 +1,30 @@
 """Run independent studies of one candidate in parallel worker processes.
 
-Each worker builds the machine model once from the pickled spec and mesh (the assembly is
-cheap next to the solves) and then runs the studies it is given. Workers start with the
-``spawn`` method (``fork`` deadlocks some sparse solvers) and one BLAS thread each: on two
-cores, competing thread pools slow the factorisations several times (MEASUREMENTS.md).
+Workers start with the ``spawn`` method (``fork`` deadlocks some sparse solvers) and one
+BLAS thread each: on two cores, competing thread pools slow the factorisations several
+times (MEASUREMENTS.md). A :class:`StudyPool` can be opened before the machine is meshed:
+its workers import the numerical libraries meanwhile (about 1.5 s each), and each builds
+the model once, from the pickled spec and mesh, at its first study of that model (the
+assembly is cheap next to the solves).
 """
 
 from __future__ import annotations
 
+import dataclasses
 import multiprocessing
 import os
+import uuid
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from contextlib import contextmanager
 
-__all__ = ["Task", "run_tasks", "single_thread_blas"]
+__all__ = ["Task", "StudyPool", "run_tasks", "single_thread_blas"]
 
 #: A study to run: (name, function of (model, *args), args).
 Task = tuple[str, Callable, tuple]
 
 _BLAS_VARIABLES = ("OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "OMP_NUM_THREADS")
-_worker_model = None
+_worker_model: tuple[str, object] | None = None  # (token, model) in a worker process
 
 
 @contextmanager
@@ -41,39 +45,93 @@ def single_thread_blas() -> Iterator[None]:
                 os.environ[key] = value
 
 
-def _init_worker(spec, mesh, linear_solver) -> None:
+def _warm_up() -> None:
+    """Worker initializer: import what the studies use while the parent meshes."""
+    from . import model, studies  # noqa: F401 - the imports are the point
+
+
+def _started() -> int:
+    return os.getpid()
+
+
+def _run_in_worker(token: str, recipe: tuple, function: Callable, args: tuple):
     global _worker_model
-    from .model import build_model
+    if _worker_model is None or _worker_model[0] != token:
+        from .model import build_model
 
-    _worker_model = build_model(spec, mesh, linear_solver)
+        spec, mesh, linear_solver, newton_rtol = recipe
+        built = build_model(spec, mesh, linear_solver)
+        _worker_model = (token, dataclasses.replace(built, newton_rtol=newton_rtol))
+    return function(_worker_model[1], *args)
 
 
-def _run_in_worker(function: Callable, args: tuple):
-    return function(_worker_model, *args)
+class StudyPool:
+    """``workers`` processes for :meth:`run`, started at once; 1 or fewer runs here.
+
+    Use it as a context manager; leaving it shuts the workers down.
+    """
+
+    def __init__(self, workers: int = 1):
+        self.workers = max(1, int(workers))
+        self._pool = None
+        self._token: tuple[object, str] | None = None
+        if self.workers > 1:
+            self._blas = single_thread_blas()
+            self._blas.__enter__()
+            self._pool = ProcessPoolExecutor(
+                self.workers, mp_context=multiprocessing.get_context("spawn"),
+                initializer=_warm_up)
+            for _ in range(self.workers):  # a process is spawned per submission
+                self._pool.submit(_started)
+
+    def __enter__(self) -> StudyPool:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def close(self) -> None:
+        """Shut the workers down (waiting for running studies)."""
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
+            self._blas.__exit__(None, None, None)
+
+    def _model_token(self, model) -> str:
+        if self._token is None or self._token[0] is not model:
+            self._token = (model, uuid.uuid4().hex)
+        return self._token[1]
+
+    def run(self, model, tasks: list[Task],
+            progress: Callable[[str], None] | None = None) -> dict:
+        """Run ``tasks`` on ``model``; returns name -> result.
+
+        In the pool they are handed out in the order given (list the longest first); one
+        task, or a pool of one, runs here. A failing task raises its error here.
+        """
+        say = progress or (lambda message: None)
+        results = {}
+        if self._pool is None or len(tasks) <= 1:
+            for name, function, args in tasks:
+                results[name] = function(model, *args)
+                say(f"{name} done")
+            return results
+        token = self._model_token(model)
+        recipe = (model.spec, model.mesh, model.linear_solver, model.newton_rtol)
+        futures = {self._pool.submit(_run_in_worker, token, recipe, f, args): name
+                   for name, f, args in tasks}
+        try:
+            for future in as_completed(futures):
+                results[futures[future]] = future.result()
+                say(f"{futures[future]} done ({len(results)}/{len(tasks)} studies)")
+        finally:
+            for future in futures:
+                future.cancel()
+        return results
 
 
 def run_tasks(model, tasks: list[Task], workers: int = 1,
               progress: Callable[[str], None] | None = None) -> dict:
-    """Run ``tasks`` on ``model``; returns name -> result.
-
-    ``workers`` <= 1 runs them here, in order; otherwise in that many processes, longest
-    first as listed. A failing task raises its error here, after the pool is shut down.
-    """
-    say = progress or (lambda message: None)
-    if workers <= 1 or len(tasks) <= 1:
-        results = {}
-        for name, function, args in tasks:
-            results[name] = function(model, *args)
-            say(f"{name} done")
-        return results
-    context = multiprocessing.get_context("spawn")
-    results = {}
-    with single_thread_blas(), ProcessPoolExecutor(
-        max_workers=min(workers, len(tasks)), mp_context=context,
-        initializer=_init_worker, initargs=(model.spec, model.mesh, model.linear_solver),
-    ) as pool:
-        futures = {pool.submit(_run_in_worker, f, args): name for name, f, args in tasks}
-        for future in as_completed(futures):
-            results[futures[future]] = future.result()
-            say(f"{futures[future]} done ({len(results)}/{len(tasks)} studies)")
-    return results
+    """Run ``tasks`` on ``model`` in a pool of ``workers`` (see :meth:`StudyPool.run`)."""
+    with StudyPool(workers if len(tasks) > 1 else 1) as pool:
+        return pool.run(model, tasks, progress)
