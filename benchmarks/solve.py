@@ -78,7 +78,7 @@ def main(argv=None) -> None:
           f"P{problem.order}, {problem.n_dofs} dofs, built in {time.perf_counter() - t:.2f} s")
     backend = linear_backend(problem, args.linear_solver)
     print(f"linear solver: {backend.describe()}")
-    kw = {"linear_solver": args.linear_solver}
+    kw = {"linear_solver": args.linear_solver, "rtol": model.newton_rtol}  # as the studies
     if args.reuse is not None:
         kw["reuse"] = args.reuse
     p = spec.pole_pairs

@@ -28,13 +28,13 @@ from .mesh import build_mesh  # noqa: E402
 from .model import build_model  # noqa: E402
 from .solver import solve_field  # noqa: E402
 from .spec import load_machine, machine_from_dict  # noqa: E402
-from .sweep import run_sweep  # noqa: E402
 from .studies import (  # noqa: E402
     inductance_curves,
     solve_point,
     torque_vs_current_angle,
     torque_vs_position,
 )
+from .sweep import run_sweep  # noqa: E402
 
 __all__ = [
     "__version__",

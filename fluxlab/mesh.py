@@ -188,7 +188,8 @@ def _rib_points(spec, sector_angle: float) -> np.ndarray:
         half_span = b.width / r_rib  # the barrier end is about a width wide
         local = []
         for a in np.linspace(end - half_span, end + half_span, 7):
-            local += [(r_rib * np.cos(a), r_rib * np.sin(a)), (r_rib * np.cos(a), -r_rib * np.sin(a))]
+            x_end, y_end = r_rib * np.cos(a), r_rib * np.sin(a)
+            local += [(x_end, y_end), (x_end, -y_end)]
         if b.post_width > 0:
             for x in np.linspace(place.r_axis - b.width, place.r_axis + b.width, 5):
                 local.append((x, 0.0))

@@ -14,35 +14,17 @@ import dataclasses
 import multiprocessing
 import os
 import uuid
-from collections.abc import Callable, Iterator
+from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
-from contextlib import contextmanager
 
-__all__ = ["Task", "StudyPool", "run_tasks", "single_thread_blas"]
+from .blas_threads import single_thread_blas
+
+__all__ = ["Task", "StudyPool", "run_tasks"]
 
 #: A study to run: (name, function of (model, *args), args).
 Task = tuple[str, Callable, tuple]
 
-_BLAS_VARIABLES = ("OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "OMP_NUM_THREADS")
 _worker_model: tuple[str, object] | None = None  # (token, model) in a worker process
-
-
-@contextmanager
-def single_thread_blas() -> Iterator[None]:
-    """Limit BLAS and OpenMP pools of this process (and of workers it starts) to 1 thread."""
-    from threadpoolctl import threadpool_limits
-
-    saved = {k: os.environ.get(k) for k in _BLAS_VARIABLES}
-    os.environ.update({k: "1" for k in _BLAS_VARIABLES})
-    try:
-        with threadpool_limits(limits=1):
-            yield
-    finally:
-        for key, value in saved.items():
-            if value is None:
-                os.environ.pop(key, None)
-            else:
-                os.environ[key] = value
 
 
 def _warm_up() -> None:

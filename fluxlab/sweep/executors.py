@@ -14,7 +14,8 @@ from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
-from .worker import BLAS_THREAD_VARIABLES, init_worker
+from ..blas_threads import single_thread_blas
+from .worker import init_worker
 
 __all__ = ["Executor", "LocalPoolExecutor", "DaskExecutor", "lost_task_result"]
 
@@ -111,11 +112,8 @@ class LocalPoolExecutor(Executor):
 
     def __init__(self, workers: int | None = None):
         self.workers = max(1, workers or os.cpu_count() or 1)
-        self._saved_env = {name: os.environ.get(name) for name in BLAS_THREAD_VARIABLES}
-        # Spawned children read BLAS settings from the environment when numpy loads, which
-        # may be before the initializer runs; so the variables are set while the pool lives.
-        for name in BLAS_THREAD_VARIABLES:
-            os.environ[name] = "1"
+        self._blas = single_thread_blas()  # set while the pool lives (fluxlab.blas_threads)
+        self._blas.__enter__()
         self._pool = self._new_pool()
 
     def _new_pool(self):
@@ -153,11 +151,7 @@ class LocalPoolExecutor(Executor):
             for process in list((getattr(self._pool, "_processes", None) or {}).values()):
                 process.terminate()
         self._pool.shutdown(wait=True, cancel_futures=True)
-        for name, value in self._saved_env.items():
-            if value is None:
-                os.environ.pop(name, None)
-            else:
-                os.environ[name] = value
+        self._blas.__exit__(None, None, None)
 
 
 class DaskExecutor(Executor):

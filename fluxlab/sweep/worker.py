@@ -19,15 +19,11 @@ from importlib import import_module
 from pathlib import Path
 from typing import Any
 
-__all__ = ["BLAS_THREAD_VARIABLES", "init_worker", "resolve_evaluator", "jsonable",
-           "evaluate_task", "curves_of"]
+from ..blas_threads import BLAS_THREAD_VARIABLES, limit_loaded_blas
+
+__all__ = ["init_worker", "resolve_evaluator", "jsonable", "evaluate_task", "curves_of"]
 
 log = logging.getLogger(__name__)
-
-# One BLAS thread per process: on 2 cores, two single-threaded workers gave 1.9x while
-# oversubscribed threads gave 0.4-1.3x (shared/MEASUREMENTS.md, "Pitfalls seen").
-BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS",
-                         "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
 
 
 def init_worker() -> None:
@@ -36,15 +32,7 @@ def init_worker() -> None:
         os.environ[name] = "1"
     # The terminal sends Ctrl-C to the whole process group; the parent decides what stops.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
-    _limit_loaded_blas()
-
-
-def _limit_loaded_blas() -> None:
-    try:  # numpy may be loaded already (by the parent's main module); then only this works
-        from threadpoolctl import threadpool_limits
-    except ImportError:
-        return
-    threadpool_limits(1)
+    limit_loaded_blas()
 
 
 def resolve_evaluator(ref: str | Callable) -> Callable:
@@ -113,7 +101,7 @@ def evaluate_task(task: dict) -> dict:
     out = {"key": task["key"], "status": "done", "summary": None, "curves": None,
            "message": ""}
     try:
-        _limit_loaded_blas()
+        limit_loaded_blas()
         spec = machine_from_dict(task["machine"], Path(task["base_dir"]))
         result = resolve_evaluator(task["evaluator"])(spec, studies=task["studies"])
         out["summary"] = jsonable(dict(result.summary))
