@@ -12,6 +12,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 __all__ = ["Key", "read_section", "MM", "DEG"]
 
 MM = 1e-3  # m per mm
@@ -56,6 +58,11 @@ class Key:
             if self.name.endswith(suffix):
                 return self.name[: -len(suffix)]
         return self.name
+
+
+def _plain(value: Any) -> Any:
+    """A numpy scalar (from a sweep plan built with numpy) as the Python value it holds."""
+    return value.item() if isinstance(value, np.generic) else value
 
 
 def _type_ok(value: Any, kind: type) -> bool:
@@ -107,7 +114,9 @@ def read_section(
     out: dict[str, Any] = {}
     for key in keys:
         path = f"{section}.{key.name}"
-        value = data.get(key.name, key.default)
+        value = _plain(data.get(key.name))
+        if value is None:  # absent (TOML has no null; None comes from dicts built in code)
+            value = key.default
         if value is _MISSING:
             problems.append(f"{path}: required key is missing")
             continue

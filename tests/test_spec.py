@@ -5,6 +5,7 @@ import math
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from fluxlab.errors import SpecError
@@ -104,6 +105,9 @@ BAD_CASES = [
     ("stator.slot_opening_mm", 9.0, "stator.slot_opening_mm = 9"),
     ("materials.rotor", "unobtainium", "materials.rotor"),
     ("operating.current_peak_A", _DELETE, "operating.current_peak_A: required key is missing"),
+    # None only comes from dicts built in code (TOML has no null): it counts as absent
+    ("operating.current_peak_A", None, "operating.current_peak_A: required key is missing"),
+    ("stator.slots", np.float64(36.0), "stator.slots = 36.0: must be int, got float"),
     ("rotor.barriers.0.end_angle_deg", 95.0, "must be at most 90"),
 ]
 
@@ -113,6 +117,15 @@ BAD_CASES = [
 def test_bad_input_names_key_value_and_limit(demo_raw, path, value, text):
     problems = _problems(_broken(demo_raw, path, value))
     assert any(text in p for p in problems), problems
+
+
+def test_numpy_numbers_are_taken_as_python_numbers(demo_raw):
+    """Sweep plans built with numpy give numpy scalars: int and float keys accept them."""
+    raw = _broken(demo_raw, "stator.slots", np.int64(36))
+    raw = _broken(raw, "stator.airgap_mm", np.float64(demo_raw["stator"]["airgap_mm"]))
+    spec = machine_from_dict(raw, GEOMETRIES)
+    assert type(spec.stator.slots) is int and spec.stator.slots == 36
+    assert spec.stator.airgap == pytest.approx(demo_raw["stator"]["airgap_mm"] * 1e-3)
 
 
 def test_all_problems_are_reported_together(demo_raw):
