@@ -10,18 +10,13 @@ and radians. Every problem found in a file is reported together in one :class:`S
 from __future__ import annotations
 
 import copy
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from .errors import SpecError
 from .schema import DEG, MM, Key, read_section
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - exercised on Python 3.10 only
-    import tomli as tomllib
+from .tomlfile import read_toml
 
 __all__ = [
     "BarrierSpec",
@@ -431,14 +426,7 @@ def _winding_problems(spec: MachineSpec) -> list[str]:
 def load_machine(path: str | Path) -> MachineSpec:
     """Read and validate a machine file (TOML, mm and degrees) into a :class:`MachineSpec`."""
     path = Path(path)
-    try:
-        with path.open("rb") as f:
-            raw = tomllib.load(f)
-    except FileNotFoundError as err:
-        raise SpecError(f"{path}: no such machine file") from err
-    except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"{path}: not valid TOML: {err}") from err
-    return machine_from_dict(raw, base_dir=path.parent)
+    return machine_from_dict(read_toml(path, "machine file"), base_dir=path.parent)
 
 
 def replace_path(spec: MachineSpec, path: str, value: Any) -> MachineSpec:

@@ -32,18 +32,13 @@ from __future__ import annotations
 
 import copy
 import math
-import sys
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from ..errors import SpecError
 from ..keypath import get_path, key_kind, parse_path, set_path
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - exercised on Python 3.10 only
-    import tomli as tomllib
+from ..tomlfile import read_toml
 
 __all__ = [
     "PLAN_KINDS",
@@ -271,12 +266,9 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
         raise SpecError(problems + [f"base = {base!r}: required, the machine file to start from"])
     base_path = (base_dir / base).resolve()
     try:
-        with base_path.open("rb") as f:
-            base_raw = tomllib.load(f)
-    except FileNotFoundError as err:
-        raise SpecError(problems + [f"base = {base!r}: no such file {base_path}"]) from err
-    except tomllib.TOMLDecodeError as err:
-        raise SpecError(problems + [f"base = {base!r}: not valid TOML: {err}"]) from err
+        base_raw = read_toml(base_path, "file")
+    except SpecError as err:
+        raise SpecError(problems + [f"base = {base!r}: {err}"]) from err
     raw = copy.deepcopy(base_raw)
     fixed = _apply_fixed(data.get("fixed", {}), raw, problems)
     studies = data.get("studies", "point")
@@ -324,11 +316,4 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
 def load_sweep(path: str | Path) -> SweepSpec:
     """Read and validate a sweep file (TOML); ``base`` is relative to the sweep file."""
     path = Path(path)
-    try:
-        with path.open("rb") as f:
-            data = tomllib.load(f)
-    except FileNotFoundError as err:
-        raise SpecError(f"{path}: no such sweep file") from err
-    except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"{path}: not valid TOML: {err}") from err
-    return sweep_from_dict(data, path.parent)
+    return sweep_from_dict(read_toml(path, "sweep file"), path.parent)
