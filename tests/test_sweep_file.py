@@ -117,8 +117,20 @@ def test_key_depends_on_machine_studies_and_evaluator_only():
     sweep = _sweep([{"path": END1, "values": [20.0, 22.0]}])
     a, b = make_candidates(sweep)
     assert a.key != b.key and len(a.key) == 64
-    assert candidate_key(a.machine, "point") == a.key  # default evaluator: no extra field
-    assert candidate_key(a.machine, "full") != a.key
-    assert candidate_key(a.machine, "point", "some.module:fake") != a.key
+    base = sweep.base_dir
+    assert candidate_key(a.machine, "point", None, base) == a.key  # default evaluator
+    assert candidate_key(a.machine, "full", None, base) != a.key
+    assert candidate_key(a.machine, "point", "some.module:fake", base) != a.key
     reordered = dict(reversed(list(a.machine.items())))  # table order does not matter
-    assert candidate_key(reordered, "point") == a.key
+    assert candidate_key(reordered, "point", None, base) == a.key
+
+
+def test_key_follows_the_contents_of_a_bh_file(tmp_path):
+    """A stored result must not stand for a machine whose B-H file was edited since."""
+    curve = tmp_path / "steel.csv"
+    curve.write_text("H_A_per_m,B_T\n0,0\n100,0.5\n300,1.0\n1000,1.4\n10000,1.8\n")
+    machine = {"materials": {"rotor": {"bh_csv": "steel.csv"}}}
+    before = candidate_key(machine, "point", None, tmp_path)
+    assert candidate_key(machine, "point", None, tmp_path) == before
+    curve.write_text(curve.read_text().replace("1.8", "1.85"))
+    assert candidate_key(machine, "point", None, tmp_path) != before
