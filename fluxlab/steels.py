@@ -30,6 +30,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from fluxlab.bh_table import MU0
 from fluxlab.errors import MaterialError
 
 if TYPE_CHECKING:
@@ -45,8 +46,6 @@ __all__ = [
     "typical_polarization",
     "steel_curve",
 ]
-
-MU0 = 4e-7 * math.pi
 
 
 @dataclass(frozen=True)
