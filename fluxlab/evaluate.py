@@ -155,9 +155,8 @@ def _ripple_tasks(model, current, angle, pieces: int) -> list:
 
 def _ripple_result(model, done: dict) -> tuple[TorqueVsPosition, list[PointResult]]:
     """The ripple study from its finished chains (:func:`_ripple_tasks`), in step order."""
-    points = [pt for name in sorted((k for k in done if k.startswith(_RIPPLE)),
-                                    key=lambda k: int(k.rsplit(" ", 1)[1].split("/")[0]))
-              for pt in done[name]]
+    points = sorted((pt for name, chain in done.items() if name.startswith(_RIPPLE)
+                     for pt in chain), key=lambda pt: pt.step)
     return position_study(model, points), points
 
 

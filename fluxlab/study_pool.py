@@ -115,5 +115,5 @@ class StudyPool:
 def run_tasks(model, tasks: list[Task], workers: int = 1,
               progress: Callable[[str], None] | None = None) -> dict:
     """Run ``tasks`` on ``model`` in a pool of ``workers`` (see :meth:`StudyPool.run`)."""
-    with StudyPool(workers if len(tasks) > 1 else 1) as pool:
+    with StudyPool(min(workers, len(tasks))) as pool:
         return pool.run(model, tasks, progress)
