@@ -2,7 +2,8 @@
 
 Three meshes of about 5k, 20k and 80k nodes (``mesh.size_mm``, ``mesh.airgap_layers``
 and ``mesh.rib_size_mm`` changed with ``spec.replace_path``); at each, the median time of
-consecutive ripple-study positions, each started from the previous one.  Prints the
+consecutive ripple-study positions, each started from the previous one and solved to the
+studies' Newton tolerance (``MachineModel.newton_rtol``).  Prints the
 fitted exponent of time against node count, overall and between the two finest meshes;
 last line ``exponent: X`` (the 20k-80k one).
 
@@ -46,12 +47,12 @@ def time_per_position(spec, linear_solver: str, positions: int) -> tuple[int, fl
 
     steps = [int(s) for s in ripple_steps(model)[: positions + 1]]
     previous = solve_field(model.problem, current(steps[0]), steps[0],
-                           linear_solver=linear_solver)
+                           linear_solver=linear_solver, rtol=model.newton_rtol)
     times, iterations = [], []
     for step in steps[1:]:
         t = time.perf_counter()
         previous = solve_field(model.problem, current(step), step, initial=previous.a,
-                               linear_solver=linear_solver)
+                               linear_solver=linear_solver, rtol=model.newton_rtol)
         times.append(time.perf_counter() - t)
         iterations.append(previous.iterations)
     return model.mesh.mesh.p.shape[1], float(np.median(times)), float(np.mean(iterations))

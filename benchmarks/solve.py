@@ -1,11 +1,21 @@
 """Cost of the field solve on the demo machine at its default mesh.
 
-Prints the mesh size, library versions, the time of one Jacobian assembly, one
-factorisation and solve (with and without the per-pattern ordering / symbolic analysis),
-and of one warm-started nonlinear rotor-position solve (median over consecutive positions
-of the ripple study, each started from the previous one).  Last line:
-``limit ratio: X`` with X = (time per warm-started position) / (one assembly + one
-numeric factorisation and solve).
+Prints the mesh size, library versions, the time of one Jacobian assembly, of one
+factorisation and solve, and of one warm-started nonlinear rotor-position solve (median
+over consecutive positions of the ripple study, each started from the previous one).
+Last line: ``limit ratio: X`` with X = (time per warm-started position) / (one assembly +
+one factorisation and solve).
+
+"One factorisation and solve" is what the backend costs for a matrix it has not seen:
+fill-reducing ordering, symbolic analysis, numeric factorisation and one solve.  That is
+how the yardstick of ../shared/MEASUREMENTS.md counts: its warm position (3 Newton steps,
+0.12-0.15 s) against 4 ms assembly plus a PARDISO factorisation of 6 ms with 34 ms
+analysis per pattern is a ratio of about 3, the limit the target of 4 leaves room above;
+counted against the 6 ms numeric factorisation alone, the yardstick itself would stand at
+13.  Every rotor step has a new pattern (the sliding tie), so each position pays one such
+factorisation and then numeric refactorisations of it.  The ratio against one assembly and
+a numeric refactorisation alone is printed as well: it is about 1.4 times the Newton
+steps a warm position needs.
 
     OPENBLAS_NUM_THREADS=1 python benchmarks/solve.py [--linear-solver auto|scipy|pardiso]
         [--reuse 0.1] [--start plain|rotated] [--positions 9]
@@ -109,8 +119,9 @@ def main(argv=None) -> None:
     t_red = _median_time(lambda: pattern.matrix(assembly.jacobian_values(data, state)), 10)
     print(f"jacobian assembly: {1e3 * t_asm:.1f} ms (values and reduction P^T K P: "
           f"{1e3 * t_red:.1f} ms)")
-    print(f"factorisation and solve: {1e3 * t_fact:.1f} ms "
-          f"(first of a pattern, with ordering/analysis: {1e3 * t_first:.1f} ms)")
+    print(f"factorisation and solve of a new pattern (ordering, analysis, numeric, solve): "
+          f"{1e3 * t_first:.1f} ms; numeric refactorisation and solve of an analysed "
+          f"pattern: {1e3 * t_fact:.1f} ms")
     times, iterations, factorisations, first_residuals = [], [], [], []
     for a, b in zip(steps[:-1], steps[1:], strict=True):
         t = time.perf_counter()
@@ -126,9 +137,9 @@ def main(argv=None) -> None:
           f"max {1e3 * max(times):.0f}; iterations {np.mean(iterations):.1f}, "
           f"factorisations {np.mean(factorisations):.1f}, first relative residual "
           f"{np.median(first_residuals):.3g}")
-    print(f"ratio with the first factorisation of a pattern: "
-          f"{t_pos / (t_asm + t_first):.2f}")
-    print(f"limit ratio: {t_pos / (t_asm + t_fact):.2f}")
+    print(f"ratio against one assembly and a numeric refactorisation alone: "
+          f"{t_pos / (t_asm + t_fact):.2f}")
+    print(f"limit ratio: {t_pos / (t_asm + t_first):.2f}")
 
 
 if __name__ == "__main__":
