@@ -254,7 +254,7 @@ def _read_barriers(data: Any, problems: list[str]) -> tuple[BarrierSpec, ...]:
 
 def _read_materials(data: Any, base_dir: Path, problems: list[str]) -> dict:
     from .errors import MaterialError
-    from .materials import resolve_material
+    from .material_files import resolve_material
 
     if not isinstance(data, dict):
         problems.append(f"materials: must be a table, got {data!r}")

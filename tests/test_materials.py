@@ -13,6 +13,7 @@ from scipy.integrate import quad
 
 from fluxlab import steels
 from fluxlab.errors import MaterialError
+from fluxlab.material_files import material_from_csv, resolve_material
 from fluxlab.materials import (
     AIR,
     BUILTIN_STEELS,
@@ -24,9 +25,7 @@ from fluxlab.materials import (
     energy_density,
     h_of_b,
     linear_material,
-    material_from_csv,
     reluctivity,
-    resolve_material,
     specific_iron_loss,
 )
 
