@@ -20,7 +20,8 @@ from . import assembly, linsolve
 from .errors import MaterialError, MeshError, SpecError
 from .mesh import MachineMesh
 from .newton import REUSE, LinearSolver, newton_solve
-from .tiemap import ReducedPattern, SectorDofs, TieMap, reduced_pattern, sector_dofs, sector_tie_map
+from .sector_ties import SectorDofs, sector_dofs, sector_tie_map
+from .tiemap import ReducedPattern, TieMap, reduced_pattern
 
 __all__ = [
     "FieldProblem",
