@@ -105,7 +105,7 @@ class BarrierSpec:
     """One flux barrier of a pole, SI units.
 
     ``depth``: where its centre line crosses the q-axis, m below the rotor surface.
-    ``end_angle``: where its centre line reaches the rotor surface, rad from the q-axis.
+    ``end_angle``: middle of its opening under the tangential rib, rad from the q-axis.
     ``width``: m, across the barrier. ``post_width``: radial rib on the q-axis, m (0: none).
     """
 

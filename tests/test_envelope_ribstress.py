@@ -16,9 +16,31 @@ GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 
 def _one_barrier(post_mm=0.0):
     raw = copy.deepcopy(load_machine(GEOMETRIES / "demo_fan_drive.toml").raw)
-    raw["rotor"]["barriers"] = [{"depth_mm": 8.0, "end_angle_deg": 13.0, "width_mm": 3.0,
-                                 "post_mm": post_mm}]
+    raw["rotor"]["barriers"] = [{"depth_mm": 8.0, "end_angle_deg": _hand_opening_middle_deg(),
+                                 "width_mm": 3.0, "post_mm": post_mm}]
     return machine_from_dict(raw, GEOMETRIES)
+
+
+def _hand_arc():
+    """The hand geometry: rotor radius, rib circle, q-axis point, arc centre and centre-line
+    radius (m) of an arc barrier 8 mm deep, 3 mm wide, its centre line ending at 13 deg
+    from the q-axis half a width inside the 0.8 mm rib."""
+    big_r = 0.068 - 0.0005  # bore radius - air gap
+    a = big_r - 0.8e-3  # rib circle
+    r_axis = big_r - 8e-3
+    r_end = a - 3e-3 / 2
+    ex, ey = r_end * math.cos(math.radians(13)), r_end * math.sin(math.radians(13))
+    c = (ex**2 + ey**2 - r_axis**2) / (2 * (ex - r_axis))  # arc centre on the q-axis
+    return big_r, a, r_axis, c, c - r_axis
+
+
+def _hand_opening_middle_deg():
+    """end_angle_deg of the hand geometry: the middle of the arc of the rib circle between
+    the barrier's two edges (law of cosines, origin - arc centre - crossing)."""
+    _, a, _, c, radius = _hand_arc()
+    edges = [math.acos((a**2 + c**2 - rho**2) / (2 * c * a)) for rho in (radius - 1.5e-3,
+                                                                           radius + 1.5e-3)]
+    return math.degrees(sum(edges) / 2)
 
 
 def _segment(radius, half_angle):
@@ -32,14 +54,8 @@ def _hand_island():
     """Steel outside the arc barrier: the lens inside the rib circle and inside the barrier's
     inner arc, plus the strip of the tangential rib layer above it. Returns (area m^2,
     first moment int x dA m^3) in pole coordinates (q-axis on x)."""
-    big_r = 0.068 - 0.0005  # bore radius - air gap
-    t_rib, w = 0.8e-3, 3e-3
-    a = big_r - t_rib  # rib circle
-    r_axis = big_r - 8e-3
-    r_end = a - w / 2  # centre line ends half a width inside the rib circle
-    ex, ey = r_end * math.cos(math.radians(13)), r_end * math.sin(math.radians(13))
-    c = (ex**2 + ey**2 - r_axis**2) / (2 * (ex - r_axis))  # arc centre on the q-axis
-    b = (c - r_axis) - w / 2  # inner edge of the barrier
+    big_r, a, r_axis, c, radius = _hand_arc()
+    b = radius - 3e-3 / 2  # inner edge of the barrier
     x0 = (a**2 - b**2 + c**2) / (2 * c)  # chord through the two circles' crossings
     a1, m1 = _segment(a, math.acos(x0 / a))  # rib-circle segment beyond the chord
     a2, m2 = _segment(b, math.acos((c - x0) / b))  # inner-arc segment towards the origin

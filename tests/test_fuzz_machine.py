@@ -664,10 +664,10 @@ def test_arc_barrier_that_turns_back_before_its_rib_is_rejected():
 
 
 def test_arc_barrier_wider_than_its_arc_is_rejected():
-    # A 12.91 mm wide barrier on a centre-line arc of radius 6.35 mm has no inner edge:
-    # the shapely check saw a full disc and passed it, gmsh refused the negative disk
+    # A 12.91 mm wide barrier on a centre-line arc of a few millimetres' radius has no inner
+    # edge: the shapely check saw a full disc and passed it, gmsh refused the negative disk
     # radius (MeshError after validation).
-    problems = _spec_problems(_demo_with_barrier(depth_mm=8.27, end_angle_deg=3.14,
+    problems = _spec_problems(_demo_with_barrier(depth_mm=8.0, end_angle_deg=6.2,
                                                  width_mm=12.91))
     assert any("rotor.barriers[0].width_mm = 12.91" in p and "rotor.min_steel_mm" in p
                for p in problems), problems

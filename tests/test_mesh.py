@@ -73,17 +73,50 @@ def test_annulus_regions_match_closed_form(demo):
         assert got == pytest.approx(want, rel=AREA_TOL)
 
 
+def _rib_crossing(c, rho, r_rib):
+    """Angle of the point where the circle of radius rho about (c, 0) crosses the circle
+    r_rib about the origin: subtracting the two circle equations gives its x."""
+    x = (r_rib**2 - rho**2 + c**2) / (2 * c)
+    assert x < c, "a crossing beyond the arc centre: this reference does not apply"
+    return math.atan2(math.sqrt(r_rib**2 - x**2), x)
+
+
+def _reference_arc_centre_line(spec, b):
+    """Centre-line circle (centre x, radius) of an arc barrier from the spec alone.
+
+    The circle passes through the q-axis point and an end point half a width inside the
+    rib circle; end_angle is the middle of the opening under the rib (between the
+    crossings of radius -/+ width/2 with the rib circle), so the end point's angle is
+    found by bisection, a bracket of 5 deg below end_angle.
+    """
+    r_rib = spec.rotor_radius - spec.rotor.tangential_rib
+    r_end, x0, half = r_rib - b.width / 2, spec.rotor_radius - b.depth, b.width / 2
+
+    def circle(t):
+        p1 = r_end * np.array([math.cos(t), math.sin(t)])
+        # centre (c, 0) equidistant from (x0, 0) and p1: solve the linear equation in c
+        c = (p1 @ p1 - x0**2) / (2 * (p1[0] - x0))
+        return c, c - x0
+
+    def middle(t):
+        c, radius = circle(t)
+        return 0.5 * (_rib_crossing(c, radius - half, r_rib)
+                      + _rib_crossing(c, radius + half, r_rib))
+
+    lo, hi = b.end_angle - math.radians(5), b.end_angle
+    assert middle(lo) < b.end_angle < middle(hi)
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if middle(mid) < b.end_angle else (lo, mid)
+    return circle(0.5 * (lo + hi))
+
+
 def _reference_arc_barrier(spec, b):
-    """Arc barrier built with shapely from the spec alone (circle through three points)."""
+    """Arc barrier area built with shapely from the spec alone."""
     from shapely.geometry import Point, box
 
     r_rotor, rib = spec.rotor_radius, spec.rotor.tangential_rib
-    r_end = r_rotor - rib - b.width / 2
-    p0 = np.array([r_rotor - b.depth, 0.0])
-    p1 = r_end * np.array([math.cos(b.end_angle), math.sin(b.end_angle)])
-    # centre (c, 0) equidistant from p0 and p1: solve the linear equation in c
-    c = (p1 @ p1 - p0 @ p0) / (2 * (p1[0] - p0[0]))
-    radius = c - p0[0]
+    c, radius = _reference_arc_centre_line(spec, b)
     band = Point(c, 0).buffer(radius + b.width / 2, 2048).difference(
         Point(c, 0).buffer(radius - b.width / 2, 2048))
     shape = band.intersection(Point(0, 0).buffer(r_rotor - rib, 2048)).intersection(

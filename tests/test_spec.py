@@ -74,7 +74,8 @@ def test_replace_path_returns_a_revalidated_copy(demo_raw):
     spec = machine_from_dict(demo_raw, GEOMETRIES)
     other = spec.replace_path("rotor.barriers[1].end_angle_deg", 22.0)
     assert other.rotor.barriers[1].end_angle == pytest.approx(math.radians(22.0))
-    assert spec.rotor.barriers[1].end_angle == pytest.approx(math.radians(24.0))
+    stated = demo_raw["rotor"]["barriers"][1]["end_angle_deg"]
+    assert spec.rotor.barriers[1].end_angle == pytest.approx(math.radians(stated))
     with pytest.raises(SpecError, match=r"rotor.barriers\[1\].width_mm"):
         spec.replace_path("rotor.barriers[1].width_mm", -1.0)
     with pytest.raises(SpecError, match="has no rotor.nothing"):

@@ -6,11 +6,33 @@ import math
 
 from ..spec import load_machine
 
-__all__ = ["add_args", "run", "summary_lines"]
+__all__ = ["add_args", "opening_lines", "run", "summary_lines"]
 
 
 def add_args(parser) -> None:
     parser.add_argument("machine", help="machine file (TOML)")
+
+
+def opening_lines(spec) -> list[str]:
+    """Per barrier, where it opens under its tangential rib, one line each.
+
+    Angles in deg from the pole's q-axis (inner edge, middle, outer edge; the middle is
+    the file's ``end_angle_deg``) and the opening's length along the rib circle, mm.
+    """
+    from ..geometry.rotor import opening_angles
+
+    rotor, r_rib = spec.rotor, spec.rotor_radius - spec.rotor.tangential_rib
+    lines = []
+    for i, b in enumerate(rotor.barriers):
+        key = f"rotor.barriers[{i}]"
+        inner, middle, outer = opening_angles(rotor, spec.rotor_radius, b, key)
+        lines.append(
+            f"{key}  opening under the rib {math.degrees(inner):.2f} / "
+            f"{math.degrees(middle):.2f} / {math.degrees(outer):.2f} deg from the q-axis "
+            f"(inner edge / middle / outer edge), {r_rib * (outer - inner) * 1e3:.2f} mm "
+            "along the rib"
+        )
+    return lines
 
 
 def summary_lines(spec) -> list[str]:
@@ -29,6 +51,7 @@ def summary_lines(spec) -> list[str]:
         f"fundamental winding factor {winding_factor(layout):.4f}",
         f"rotor        {len(r.barriers)} {r.barrier_shape} barrier(s) per pole, shaft "
         f"{r.shaft_diameter * 1e3:g} mm, tangential rib {r.tangential_rib * 1e3:g} mm",
+        *opening_lines(spec),
         "materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
         f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
         f"{'anti-' if sign < 0 else ''}periodic edges)",
@@ -44,3 +67,4 @@ def run(args) -> int:
     for line in summary_lines(spec):
         print("  " + line)
     return 0
+

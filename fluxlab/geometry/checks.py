@@ -11,7 +11,7 @@ import math
 from ..errors import GeometryError
 from ..spec import MachineSpec
 from .csg import disk, to_shapely
-from .rotor import barrier_placement, barrier_shape
+from .rotor import barrier_shape
 from .stator import slot_outline
 
 __all__ = ["geometry_problems"]
@@ -99,19 +99,14 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
             shapes.append(None)
             continue
         try:
-            place = barrier_placement(rotor, r_rotor, b, key)
+            # end_angle_deg is where the barrier opens under its rib (rotor.py); the
+            # placement rejects angles no centre line reaches, U legs that would meet
+            # and arcs with too little steel inside, each with its feasible range
+            shape = to_shapely(barrier_shape(rotor, r_rotor, b, key))
         except GeometryError as err:
             problems.extend(err.problems)
             shapes.append(None)
             continue
-        if rotor.barrier_shape == "u" and place.end_y - b.width / 2 <= b.post_width / 2 + _TOL:
-            problems.append(
-                f"{key}.end_angle_deg = {math.degrees(b.end_angle):.4g}: too small for a U "
-                f"barrier of width {_mm(b.width)} mm; its legs would meet"
-            )
-            shapes.append(None)
-            continue
-        shape = to_shapely(barrier_shape(rotor, r_rotor, b, key))
         shapes.append(shape)
         if shape.is_empty or shape.geom_type != "Polygon":
             problems.append(f"{key}: the barrier is not one connected piece; check its values")
