@@ -53,8 +53,9 @@ def main() -> None:
     ripple = evaluation.torque_vs_position
     solves += len(ripple.iterations)
     iterations += int(np.sum(ripple.iterations))
-    angle_solves = sum(len(s.current_angle_deg) * s.positions for s in evaluation.torque_vs_angle)
-    inductance_solves = 2 * len(evaluation.inductances.current_peak_A)
+    angle_solves = sum(len(s.points) * s.positions for s in evaluation.torque_vs_angle)
+    inductance_solves = 2 * len(evaluation.inductances.current_peak_A) * \
+        evaluation.inductances.positions
     s = evaluation.summary
     print(f"fluxlab {fluxlab.__version__}, numpy {np.__version__}")
     print(f"mesh: {s['nodes']} nodes, {s['elements']} elements, P{s['element_order']}")
@@ -67,8 +68,9 @@ def main() -> None:
     print(f"tables, figures, review.pdf {t_write:7.2f} s")
     print(f"peak resident memory {_peak_rss_mib():.0f} MiB (largest of this process and a worker)")
     print("summary: " + ", ".join(f"{k} {s[k]:.6g}" for k in (
-        "Ld_H", "Lq_H", "saliency_ratio", "torque_mean_Nm", "torque_ripple_pct",
-        "mtpa_angle_deg", "power_factor")))
+        "Ld_apparent_H", "Lq_apparent_H", "saliency_apparent", "torque_mean_Nm",
+        "torque_maxwell_mean_Nm", "torque_ripple_pct", "mtpa_angle_deg", "mtpa_torque_Nm",
+        "overload_mtpa_angle_deg", "overload_mtpa_torque_Nm", "power_factor")))
     print(f"evaluate wall s: {wall:.1f}")
 
 

@@ -26,11 +26,11 @@ from .errors import (  # noqa: E402
 from .evaluate import Evaluation, StudySettings, evaluate  # noqa: E402
 from .mesh import build_mesh  # noqa: E402
 from .model import build_model  # noqa: E402
+from .operating_point import averaged_point, solve_point  # noqa: E402
 from .solver import solve_field  # noqa: E402
 from .spec import load_machine, machine_from_dict  # noqa: E402
 from .studies import (  # noqa: E402
     inductance_curves,
-    solve_point,
     torque_vs_current_angle,
     torque_vs_position,
 )
@@ -44,6 +44,7 @@ __all__ = [
     "build_model",
     "solve_field",
     "solve_point",
+    "averaged_point",
     "evaluate",
     "run_sweep",
     "Evaluation",

@@ -1,7 +1,9 @@
 """Evaluate one candidate machine: the rated point, ripple, current-angle and saturation studies.
 
 ``evaluate(spec)`` returns an :class:`Evaluation` without writing files; the command line
-(``fluxlab evaluate``) writes its tables, figures and review sheet.
+(``fluxlab evaluate``) writes its tables, figures and review sheet. Every position-averaged
+figure comes from the operating-point engine (:mod:`fluxlab.operating_point`) over the
+machine's averaging positions (:mod:`fluxlab.averaging`).
 """
 
 from __future__ import annotations
@@ -15,65 +17,70 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import __version__
+from .averaging import averaging_positions, periods_per_revolution, residual_orders, torque_period
 from .mesh import build_mesh
 from .model import MachineModel, build_model
+from .operating_point import AveragedPoint, OperatingPoints, PointResult, averaged_points
 from .solver import linear_backend
 from .spec import MachineSpec
 from .studies import (
+    ANGLE_STEP_DEG,
     InductanceCurves,
-    PointResult,
     TorqueVsAngle,
     TorqueVsPosition,
     inductance_curves,
+    join_inductance_curves,
     position_study,
-    power_factor,
     ripple_steps,
     solve_positions,
     torque_vs_current_angle,
-    torque_vs_position,
 )
 
-__all__ = ["StudySettings", "Evaluation", "evaluate"]
+__all__ = ["StudySettings", "Evaluation", "evaluate", "averaging_note", "CONVENTIONS"]
 
 log = logging.getLogger(__name__)
+
+#: Conventions stated in every summary.
+CONVENTIONS = ("peak phase currents; amplitude-invariant Park transform; current angle from "
+               "the d-axis; d-axis = least reluctance; saliency = Ld/Lq")
 
 
 @dataclass(frozen=True)
 class StudySettings:
     """How much work an evaluation does.
 
-    ``studies``: ``"full"`` (all studies) or ``"point"`` (the rated point only, averaged over
-    ``angle_positions`` rotor positions: the cheap mode of sweeps).
-    ``angle_step_deg``: grid of the current-angle study; ``angle_positions``: rotor positions
-    averaged per current angle; ``inductance_points``: currents of the saturation curves,
-    from ``inductance_min_fraction`` to ``inductance_max_fraction`` times rated.
+    ``studies``: ``"full"`` (all studies) or ``"point"`` (the rated point only: the cheap
+    mode of sweeps). ``angle_step_deg``: grid of the current-angle study (the MTPA is then
+    searched between grid angles); ``inductance_points``: currents of the saturation curves,
+    from ``inductance_min_fraction`` to ``inductance_max_fraction`` times rated. The rotor
+    positions of every mean are the machine's (``mesh.averaging_positions``).
     """
 
     studies: str = "full"
-    angle_step_deg: float = 10.0
-    angle_positions: int = 4
-    inductance_points: int = 8
-    inductance_min_fraction: float = 0.1
+    angle_step_deg: float = ANGLE_STEP_DEG
+    inductance_points: int = 6
+    inductance_min_fraction: float = 1 / 3
     inductance_max_fraction: float = 2.0
 
     def __post_init__(self):
-        from .errors import SpecError
-
         if self.studies not in ("full", "point"):
-            raise SpecError(f"studies = {self.studies!r}: must be 'full' or 'point'")
+            raise ValueError(f"studies = {self.studies!r}: must be 'full' or 'point'")
         if not 0 < self.angle_step_deg <= 45:
-            raise SpecError(f"angle_step_deg = {self.angle_step_deg}: must be in (0, 45]")
-        if self.angle_positions < 1 or self.inductance_points < 2:
-            raise SpecError(
-                f"angle_positions = {self.angle_positions}, inductance_points = "
-                f"{self.inductance_points}: need at least 1 and 2"
-            )
+            raise ValueError(f"angle_step_deg = {self.angle_step_deg}: must be in (0, 45]")
+        if self.inductance_points < 2:
+            raise ValueError(f"inductance_points = {self.inductance_points}: need at least 2")
+        if not 0 < self.inductance_min_fraction < self.inductance_max_fraction:
+            raise ValueError(
+                f"inductance fractions {self.inductance_min_fraction}, "
+                f"{self.inductance_max_fraction}: need 0 < min < max")
 
 
 @dataclass(frozen=True, eq=False)
 class Evaluation:
     """Results of one evaluation. ``summary`` holds the key figures (JSON-able).
 
+    ``rated``: the rated operating point averaged over rotor positions; ``rated_point``: its
+    solved field at rotor position zero (for the field figure and the flux densities).
     ``timings_s``: wall time in s of ``mesh`` (absent when a model was given), ``model``
     (assembly) and ``studies`` (the solves and their post-processing).
     """
@@ -82,42 +89,86 @@ class Evaluation:
     model: MachineModel
     settings: StudySettings
     summary: dict
+    rated: AveragedPoint
     rated_point: PointResult
     torque_vs_position: TorqueVsPosition | None
     torque_vs_angle: list[TorqueVsAngle]
     inductances: InductanceCurves | None
     timings_s: dict = field(default_factory=dict)
 
+    def operating_points(self) -> OperatingPoints:
+        """The rated point and the MTPA per current that the envelope reports as well."""
+        return OperatingPoints(self.rated, {s.current_peak_A: s.mtpa
+                                            for s in self.torque_vs_angle})
 
-def _summary(spec, model, settings, angle, ripple, angle_studies, point, elapsed) -> dict:
-    psi_d, psi_q = ripple_means(ripple) if ripple is not None else (point.psi_d, point.psi_q)
-    i_d, i_q = point.i_d, point.i_q
-    l_d = psi_d / i_d if abs(i_d) > 1e-12 else math.nan
-    l_q = psi_q / i_q if abs(i_q) > 1e-12 else math.nan
-    torque = ripple.torque_mean_Nm if ripple is not None else point.torque_maxwell_Nm
-    torque_dq = 1.5 * spec.pole_pairs * (psi_d * i_q - psi_q * i_d)
-    rated_angle = angle_studies[0] if angle_studies else None
+
+def averaging_note(spec: MachineSpec) -> dict:
+    """How the position-averaged figures of ``spec`` are averaged (JSON-able)."""
+    slots, p = spec.stator.slots, spec.pole_pairs
+    count = averaging_positions(spec)
+    period = math.degrees(torque_period(slots, p))
+    return {
+        "positions": count,
+        "interval_deg": period,
+        "interval_electrical_deg": period * p,
+        "periods_per_revolution": periods_per_revolution(slots, p),
+        "orders_left_in_mean": residual_orders(slots, p, count),
+        "order_convention": "harmonic orders per electrical period",
+        "torque": "3/2 p (<psi_d> i_q - <psi_q> i_d) of the flux linkages averaged over the "
+                  "positions, equally spaced over the interval from rotor position 0",
+    }
+
+
+def _apparent(psi: float, current: float) -> float:
+    return psi / current if abs(current) > 1e-12 else math.nan
+
+
+def _one_axis_at(curves: InductanceCurves | None, current: float) -> dict:
+    """Apparent inductances with the current on one axis at ``current`` (on the curves)."""
+    if curves is None:
+        return {"Ld_one_axis_H": None, "Lq_one_axis_H": None, "saliency_one_axis": None}
+    ld = float(np.interp(current, curves.current_peak_A, curves.Ld_one_axis_H))
+    lq = float(np.interp(current, curves.current_peak_A, curves.Lq_one_axis_H))
+    return {"Ld_one_axis_H": ld, "Lq_one_axis_H": lq, "saliency_one_axis": ld / lq}
+
+
+def _get(study, name):
+    return getattr(study, name) if study is not None else None
+
+
+def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) -> dict:
+    from .flux_density import region_flux_densities
+
+    spec, model = evaluation_parts["spec"], evaluation_parts["model"]
+    rated, ripple = evaluation_parts["rated"], evaluation_parts["ripple"]
+    studies = evaluation_parts["angle_studies"]
+    rated_study = studies[0] if studies else None
+    overload = studies[1] if len(studies) > 1 else None
+    l_d, l_q = _apparent(rated.psi_d, rated.i_d), _apparent(rated.psi_q, rated.i_q)
     return {
         "machine": spec.name,
         "current_peak_A": spec.operating.current_peak_A,
-        "current_angle_deg": math.degrees(angle),
-        "psi_d_Wb": psi_d,
-        "psi_q_Wb": psi_q,
-        "Ld_H": l_d,
-        "Lq_H": l_q,
-        "saliency_ratio": l_d / l_q if l_q else math.nan,
-        "torque_mean_Nm": torque,
-        "torque_dq_Nm": torque_dq,
-        "torque_ripple_pct": ripple.ripple_pct if ripple is not None else None,
-        "mtpa_angle_deg": rated_angle.mtpa_angle_deg if rated_angle else None,
-        "mtpa_torque_Nm": rated_angle.mtpa_torque_Nm if rated_angle else None,
-        "power_factor": power_factor(psi_d, psi_q, i_d, i_q),
+        "current_angle_deg": rated.current_angle_deg,
+        "psi_d_Wb": rated.psi_d,
+        "psi_q_Wb": rated.psi_q,
+        "Ld_apparent_H": l_d,
+        "Lq_apparent_H": l_q,
+        "saliency_apparent": l_d / l_q if l_q else math.nan,
+        **_one_axis_at(evaluation_parts["curves"], spec.operating.current_peak_A),
+        "torque_mean_Nm": rated.torque_Nm,
+        "torque_maxwell_mean_Nm": ripple.torque_maxwell_mean_Nm if ripple else None,
+        "torque_ripple_pct": ripple.ripple_pct if ripple else None,
+        "power_factor": rated.power_factor,
+        "mtpa_angle_deg": _get(rated_study, "mtpa_angle_deg"),
+        "mtpa_torque_Nm": _get(rated_study, "mtpa_torque_Nm"),
         "overload_current_peak_A": spec.operating.overload_current_peak_A,
-        "overload_mtpa_angle_deg": (angle_studies[1].mtpa_angle_deg
-                                    if len(angle_studies) > 1 else None),
-        "overload_mtpa_torque_Nm": (angle_studies[1].mtpa_torque_Nm
-                                    if len(angle_studies) > 1 else None),
-        "b_max_T": float(point.solution.b_norm.max()),
+        "overload_mtpa_angle_deg": _get(overload, "mtpa_angle_deg"),
+        "overload_mtpa_torque_Nm": _get(overload, "mtpa_torque_Nm"),
+        "mtpa_tolerance_deg": _get(rated_study, "mtpa_tolerance_deg"),
+        "mtpa_solves": sum(s.mtpa_solves for s in studies) if studies else None,
+        "averaging": {**averaging_note(spec),
+                      "ripple_positions": len(ripple.torque_Nm) if ripple else None},
+        "flux_density": region_flux_densities(model, evaluation_parts["point"].solution),
         "nodes": int(model.mesh.mesh.p.shape[1]),
         "elements": int(model.mesh.mesh.t.shape[1]),
         "element_order": spec.mesh.element_order,
@@ -126,23 +177,15 @@ def _summary(spec, model, settings, angle, ripple, angle_studies, point, elapsed
         "solver": {"newton_rtol": model.newton_rtol,
                    "linear_solver": linear_backend(model.problem, model.linear_solver).describe()},
         "studies": settings.studies,
-        "conventions": "peak phase currents; amplitude-invariant Park transform; current "
-                       "angle from the d-axis; d-axis = least reluctance; saliency = Ld/Lq",
+        "conventions": CONVENTIONS,
         "fluxlab_version": __version__,
         "wall_time_s": elapsed,
     }
 
 
-def ripple_means(ripple: TorqueVsPosition) -> tuple[float, float]:
-    """Mean psi_d and psi_q over the positions of a ripple study, Wb."""
-    return float(ripple.psi_d_Wb.mean()), float(ripple.psi_q_Wb.mean())
-
-
-def _point_task(model, current, angle, positions):
-    return torque_vs_position(model, current, angle, ripple_steps(model, positions))
-
-
 _RIPPLE = "torque vs position"
+_ANGLE = "torque vs current angle"
+_INDUCTANCE = "inductance curve"
 
 
 def _ripple_tasks(model, current, angle, pieces: int) -> list:
@@ -160,23 +203,57 @@ def _ripple_result(model, done: dict) -> tuple[TorqueVsPosition, list[PointResul
     return position_study(model, points), points
 
 
+def _inductance_currents(spec: MachineSpec, settings: StudySettings) -> np.ndarray:
+    """Currents of the saturation curves (peak A): the settings' span, with the rated and the
+    overload current on them (their points are the current-angle curves' ends)."""
+    op = spec.operating
+    span = op.current_peak_A * np.linspace(settings.inductance_min_fraction,
+                                           settings.inductance_max_fraction,
+                                           settings.inductance_points)
+    wanted = [c for c in (op.current_peak_A, op.overload_current_peak_A) if c is not None]
+    return np.array(sorted({*span.round(9).tolist(), *wanted}))
+
+
 def _full_tasks(model, settings, angle, workers: int) -> list:
-    """The independent studies, the longest first: the current-angle studies, the ripple
-    chains, the saturation curves."""
+    """The independent studies, the longest first: the current-angle studies (without their
+    0 and 90 deg ends, which the saturation curves solve), the two saturation curves, the
+    ripple chains (short, they fill the end). The rated angle joins the rated grid."""
     op = model.spec.operating
     tasks = []
     for label, current in (("overload", op.overload_current_peak_A),
                            ("rated", op.current_peak_A)):
         if current is not None:
-            tasks.append((f"torque vs current angle, {label}", torque_vs_current_angle,
-                          (current, settings.angle_step_deg, settings.angle_positions)))
+            extra = [math.degrees(angle)] if angle is not None and label == "rated" else []
+            tasks.append((f"{_ANGLE}, {label}", torque_vs_current_angle,
+                          (current, settings.angle_step_deg, None, None, extra, False)))
+    currents = _inductance_currents(model.spec, settings)
+    for axis in ("d", "q"):
+        tasks.append((f"{_INDUCTANCE}, {axis}-axis", inductance_curves,
+                      (currents, None, None, (axis,))))
     if angle is not None:
-        tasks += _ripple_tasks(model, op.current_peak_A, angle, workers + 1 if workers > 1 else 1)
-    currents = op.current_peak_A * np.linspace(
-        settings.inductance_min_fraction, settings.inductance_max_fraction,
-        settings.inductance_points)
-    tasks.append(("inductance curves", inductance_curves, (currents,)))
+        tasks += _ripple_tasks(model, op.current_peak_A, angle, 2 * workers if workers > 1 else 1)
     return tasks
+
+
+def _full_studies(model, settings, angle, pool, say) -> dict:
+    """Run the full studies in ``pool``; the parts of the evaluation."""
+    op = model.spec.operating
+    say(f"running the studies in {pool.workers} process(es)")
+    done = pool.run(model, _full_tasks(model, settings, angle, pool.workers), say)
+    curves = join_inductance_curves(done[f"{_INDUCTANCE}, d-axis"],
+                                    done[f"{_INDUCTANCE}, q-axis"])
+    studies = [study.with_points(curves.ends_at(study.current_peak_A))
+               for study in (done.get(f"{_ANGLE}, {k}") for k in ("rated", "overload"))
+               if study is not None]
+    if angle is None:
+        rated = studies[0].mtpa
+        done.update(pool.run(model, _ripple_tasks(model, op.current_peak_A, rated.current_angle,
+                                                  pool.workers), say))
+    else:
+        rated = studies[0].at(math.degrees(angle))
+    ripple, points = _ripple_result(model, done)
+    return {"rated": rated, "point": points[0], "ripple": ripple, "angle_studies": studies,
+            "curves": curves}
 
 
 def evaluate(
@@ -192,9 +269,10 @@ def evaluate(
     """Evaluate a candidate: model once, then the studies (see :class:`StudySettings`).
 
     The rated point uses ``operating.current_peak_A`` at ``operating.current_angle_deg``, or
-    at the MTPA angle of the rated-current study when the angle is not given. ``workers``
-    > 1 runs the independent studies in that many processes (leave it at 1 inside a sweep
-    that already uses the cores). ``linear_solver``: see :class:`fluxlab.model.MachineModel`.
+    at the MTPA angle of the rated-current study when the angle is not given (quick mode:
+    45 deg). ``workers`` > 1 runs the independent studies in that many processes (leave it
+    at 1 inside a sweep that already uses the cores). ``linear_solver``: see
+    :class:`fluxlab.model.MachineModel`.
     """
     from .study_pool import StudyPool
 
@@ -202,9 +280,6 @@ def evaluate(
     say = progress or (lambda message: None)
     start = time.perf_counter()
     op = spec.operating
-    angle = op.current_angle
-    angle_studies: list[TorqueVsAngle] = []
-    curves = None
     # the workers start now and import their libraries while this process meshes
     with StudyPool(workers if settings.studies == "full" else 1) as pool:
         say("meshing and assembling")
@@ -215,26 +290,14 @@ def evaluate(
             model = build_model(spec, mesh, linear_solver)
         timings["model"] = time.perf_counter() - start - timings.get("mesh", 0.0)
         if settings.studies == "point":
-            angle = math.pi / 4 if angle is None else angle
-            ripple, points = _point_task(model, op.current_peak_A, angle,
-                                         settings.angle_positions)
+            angle = math.pi / 4 if op.current_angle is None else op.current_angle
+            rated, points = averaged_points(model, op.current_peak_A, angle)
+            parts = {"rated": rated, "point": points[0], "ripple": None, "angle_studies": [],
+                     "curves": None}
         else:
-            say(f"running the studies in {pool.workers} process(es)")
-            done = pool.run(model, _full_tasks(model, settings, angle, pool.workers), say)
-            angle_studies = [done[k] for k in ("torque vs current angle, rated",
-                                               "torque vs current angle, overload") if k in done]
-            curves = done["inductance curves"]
-            if angle is None:
-                angle = math.radians(angle_studies[0].mtpa_angle_deg)
-                done.update(pool.run(model, _ripple_tasks(model, op.current_peak_A, angle,
-                                                          pool.workers), say))
-            ripple, points = _ripple_result(model, done)
+            parts = _full_studies(model, settings, op.current_angle, pool, say)
     timings["studies"] = time.perf_counter() - start - sum(timings.values())
-    point = points[0]
-    summary = _summary(spec, model, settings, angle, ripple, angle_studies, point,
-                       time.perf_counter() - start)
-    if settings.studies == "point":
-        summary["torque_ripple_pct"] = None  # a few positions do not resolve the ripple
-        ripple = None
-    return Evaluation(spec, model, settings, summary, point, ripple, angle_studies, curves,
-                      timings)
+    parts.update(spec=spec, model=model)
+    summary = _summary(parts, settings, time.perf_counter() - start)
+    return Evaluation(spec, model, settings, summary, parts["rated"], parts["point"],
+                      parts["ripple"], parts["angle_studies"], parts["curves"], timings)

@@ -54,7 +54,7 @@ BACKENDS = ("auto", "scipy", "pardiso")
 #: Patterns whose ordering or analysis a backend keeps: a study revisits a few rotor steps
 #: (the current-angle study cycles through its positions), a PARDISO analysis with its
 #: factor takes a few MB at 20k nodes.
-_PATTERNS = 4
+_PATTERNS = 8
 
 
 def _singular(exc: Exception) -> ConvergenceError:

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from skfem import MeshTri
 
+from .averaging import division_unit, position_counts
 from .errors import MeshError
 
 __all__ = [
@@ -95,11 +96,14 @@ def sliding_divisions(spec, sector_angle: float) -> int:
     The segment is about 1.5 times the air-gap element size (so that the gap triangles are
     well shaped) and the count is a multiple of ``steps_per_slot`` times the slots in the
     sector, so that a study step of ``1/steps_per_slot`` slot pitch is a whole number of
-    segments.
+    segments, and of what every position count of the studies needs to be equally spaced
+    (:func:`fluxlab.averaging.position_counts`).
     """
     from .geometry import sliding_radius, slots_in_sector
 
-    unit = spec.mesh.steps_per_slot * slots_in_sector(spec, sector_angle)
+    sectors = round(2 * math.pi / sector_angle)
+    unit = math.lcm(spec.mesh.steps_per_slot * slots_in_sector(spec, sector_angle),
+                    division_unit(spec, sectors, position_counts(spec)))
     target = sliding_radius(spec) * sector_angle / (1.5 * airgap_element_size(spec))
     return unit * max(1, int(np.ceil(target / unit)))
 

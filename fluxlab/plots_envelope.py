@@ -187,7 +187,7 @@ def _key_rows(result) -> list[tuple[str, str]]:
         ("top speed (rpm)", f"{s['max_speed_rpm']:.4g}"),
         ("phase resistance at {:.0f} °C (Ω)".format(s["copper_temperature_C"]),
          f"{s['phase_resistance_Ohm']:.4g}"),
-        ("rated: A peak, MTPA deg, rpm",
+        ("rated: A peak, γ deg, rpm",
          f"{r['current_peak_A']:.4g}, {r['current_angle_deg']:.1f}, {r['speed_rpm']:.4g}"),
         ("rated torque (N·m) / power (kW)", f"{r['torque_Nm']:.4g} / {r['power_W'] / 1e3:.3g}"),
         ("copper / iron loss (W)", f"{r['copper_loss_W']:.4g} / {r['iron_loss_W']:.4g}"),

@@ -19,7 +19,7 @@ OBJECTIVE_LABELS = {
     "torque_mean_Nm": "mean torque (N·m)",
     "torque_ripple_pct": "torque ripple, peak to peak (% of mean torque)",
     "power_factor": "power factor",
-    "saliency_ratio": "saliency ratio Ld/Lq",
+    "saliency_apparent": "saliency Ld/Lq at the operating point",
 }
 
 
@@ -109,7 +109,7 @@ def _label_points(ax, xs, ys, texts, obstacles) -> None:
 
 
 def plot_pareto(rows: Sequence[dict], ax=None, label_front: bool = True):
-    """Mean torque against ripple (or power factor), coloured by saliency ratio.
+    """Mean torque against ripple (or power factor), coloured by the apparent saliency.
 
     The non-dominated candidates are ringed, joined by a line and labelled by candidate
     number. Returns the axes.
@@ -122,11 +122,12 @@ def plot_pareto(rows: Sequence[dict], ax=None, label_front: bool = True):
     if not done:
         ax.text(0.5, 0.5, "no evaluated candidate to plot", ha="center", transform=ax.transAxes)
         return ax
-    saliency = np.array([np.nan if r.get("saliency_ratio") is None else r["saliency_ratio"]
+    saliency = np.array([np.nan if r.get("saliency_apparent") is None
+                         else r["saliency_apparent"]
                          for r in done], float)
     sc = ax.scatter(other, torque, c=saliency, cmap="viridis", s=36, zorder=2)
-    ax.scatter([], [], s=36, color="0.45", label="candidate (colour: saliency ratio)")
-    ax.figure.colorbar(sc, ax=ax, label=OBJECTIVE_LABELS["saliency_ratio"])
+    ax.scatter([], [], s=36, color="0.45", label="candidate (colour: saliency)")
+    ax.figure.colorbar(sc, ax=ax, label=OBJECTIVE_LABELS["saliency_apparent"])
     idx = pareto_front(-torque, -other if maximise else other)
     idx = idx[np.argsort(other[idx])]
     ax.plot(other[idx], torque[idx], "-", color="#c0392b", lw=1.2, zorder=1)
@@ -155,7 +156,7 @@ def plot_parameters(rows: Sequence[dict], parameters: Sequence[str], objectives=
 
     if objectives is None:
         second, _ = pareto_objectives(rows)
-        objectives = ("torque_mean_Nm", second, "saliency_ratio")
+        objectives = ("torque_mean_Nm", second, "saliency_apparent")
     n_rows, n_cols = len(objectives), len(parameters)
     fig, axes = plt.subplots(n_rows, n_cols,
                              figsize=(max(3.4 * n_cols + 0.8, 6.0), 2.6 * n_rows + 1.0),

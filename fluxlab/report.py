@@ -26,27 +26,52 @@ def _fmt(value, digits=4) -> str:
 
 def key_figures(summary: dict) -> list[tuple[str, str]]:
     """(quantity with unit, value) rows of the key figures of a summary."""
+    avg = summary.get("averaging", {})
     rows = [
         ("rated current (A peak)", _fmt(summary["current_peak_A"])),
-        ("current angle γ from d-axis (deg)", _fmt(summary["current_angle_deg"])),
-        ("ψd / ψq (Wb, peak)", f"{_fmt(summary['psi_d_Wb'])} / {_fmt(summary['psi_q_Wb'])}"),
-        ("Ld / Lq apparent (mH)",
-         f"{_fmt(summary['Ld_H'] * 1e3)} / {_fmt(summary['Lq_H'] * 1e3)}"),
-        ("saliency ratio Ld/Lq", _fmt(summary["saliency_ratio"])),
-        ("mean torque, Maxwell stress (N·m)", _fmt(summary["torque_mean_Nm"])),
-        ("mean torque, 3/2 p (ψd iq − ψq id) (N·m)", _fmt(summary["torque_dq_Nm"])),
-        ("torque ripple (% peak-to-peak of mean)", _fmt(summary["torque_ripple_pct"], 3)),
-        ("power factor (resistance neglected)", _fmt(summary["power_factor"], 3)),
-        ("MTPA angle at rated current (deg)", _fmt(summary["mtpa_angle_deg"], 3)),
+        ("current angle γ (deg from d-axis)", _fmt(summary["current_angle_deg"])),
+        ("ψd / ψq, position mean (Wb)",
+         f"{_fmt(summary['psi_d_Wb'])} / {_fmt(summary['psi_q_Wb'])}"),
+        ("Ld / Lq at the operating point (mH)",
+         f"{_fmt(_milli(summary['Ld_apparent_H']))} / {_fmt(_milli(summary['Lq_apparent_H']))}"),
+        ("saliency Ld/Lq at the operating point", _fmt(summary["saliency_apparent"])),
+        ("Ld / Lq one axis at a time (mH)",
+         f"{_fmt(_milli(summary['Ld_one_axis_H']))} / {_fmt(_milli(summary['Lq_one_axis_H']))}"),
+        (f"mean torque, {avg.get('positions', '?')} positions (N·m)",
+         _fmt(summary["torque_mean_Nm"])),
+        ("air-gap torque, ripple mean (N·m)", _fmt(summary["torque_maxwell_mean_Nm"])),
+        ("torque ripple, peak to peak (%)", _fmt(summary["torque_ripple_pct"], 3)),
+        ("power factor (R neglected)", _fmt(summary["power_factor"], 3)),
+        ("MTPA at rated current (deg; N·m)",
+         f"{_fmt(summary['mtpa_angle_deg'], 3)}; {_fmt(summary['mtpa_torque_Nm'])}"),
     ]
     if summary.get("overload_current_peak_A"):
-        rows.append((f"MTPA at overload {summary['overload_current_peak_A']:g} A: deg, N·m",
-                     f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}, "
+        rows.append((f"MTPA at {summary['overload_current_peak_A']:g} A (deg; N·m)",
+                     f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}; "
                      f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
-    rows += [
-        ("peak |B| in the model (T)", _fmt(summary["b_max_T"], 3)),
-        ("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"),
-    ]
+    rows += _flux_density_rows(summary.get("flux_density"))
+    rows.append(("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"))
+    return rows
+
+
+def _milli(value):
+    return None if value is None else value * 1e3
+
+
+def _flux_density_rows(densities: dict | None) -> list[tuple[str, str]]:
+    """Rows of the per-region flux densities at the rated point, position 0."""
+    if not densities:
+        return []
+    rows = []
+    for region, label in (("stator_teeth", "teeth"), ("stator_yoke", "yoke")):
+        if region in densities:
+            d = densities[region]
+            rows.append((f"|B| stator {label}: mean / 99 % (T)",
+                         f"{_fmt(d['mean_T'], 3)} / {_fmt(d['p99_T'], 3)}"))
+    rotor = [f"{_fmt(densities[r]['p99_T'], 3)}" for r in ("rotor_flux_guides", "rotor_ribs")
+             if r in densities]
+    if rotor:
+        rows.append(("|B| rotor guides / ribs: 99 % (T)", " / ".join(rotor)))
     return rows
 
 
@@ -55,8 +80,8 @@ def _table(ax, rows) -> None:
     table = ax.table(cellText=[list(r) for r in rows], colLabels=["quantity", "value"],
                      colWidths=[0.7, 0.3], loc="upper center", cellLoc="left")
     table.auto_set_font_size(False)
-    table.set_fontsize(7)
-    table.scale(1.08, 1.22)
+    table.set_fontsize(6.5)
+    table.scale(1.12, 1.0)
 
 
 def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
@@ -93,9 +118,9 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         (evaluation.torque_vs_position, plot_torque_vs_position, grid[0, 2],
          "Torque vs rotor position at the rated point"),
         (evaluation.torque_vs_angle or None, plot_torque_vs_angle, grid[1, 0],
-         "Mean torque vs current angle"),
+         "Torque vs current angle (position means)"),
         (evaluation.inductances, plot_inductances, grid[1, 1],
-         "Saturation: apparent Ld, Lq vs current"),
+         "Saturation, current on one axis at a time"),
     ]
     for data, plot, cell, title in curves:
         if data is not None:

@@ -76,6 +76,7 @@ MESH_KEYS = (
     Key("airgap_layers", int, default=2, low=1, high=8),
     Key("steps_per_slot", int, default=24, low=4, high=400),
     Key("element_order", int, default=1, low=1, high=2),
+    Key("averaging_positions", int, default=None, low=1, high=72),
 )
 OPERATING_KEYS = (
     Key("current_peak_A", float, low=0, low_open=True),
@@ -92,7 +93,7 @@ DRIVE_KEYS = (
     Key("end_winding_length_mm", float, default=None, scale=MM, low=0, low_open=True),
     Key("flux_map_points", int, default=9, low=2, high=101),
     Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
-    Key("flux_map_positions", int, default=1, low=1, high=64),
+    Key("flux_map_positions", int, default=None, low=1, high=72),
     Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
 )
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
@@ -157,13 +158,19 @@ class RotorSpec:
 
 @dataclass(frozen=True)
 class MeshSpec:
-    """Mesh controls, SI units. ``rib_size`` None means a third of the thinnest rib."""
+    """Mesh controls, SI units. ``rib_size`` None means a third of the thinnest rib.
+
+    ``averaging_positions``: rotor positions over one torque period averaged for every
+    position-averaged figure (None: the rule of :func:`fluxlab.averaging.default_positions`);
+    the sliding circle is divided so that they are equally spaced.
+    """
 
     size: float
     rib_size: float | None
     airgap_layers: int
     steps_per_slot: int
     element_order: int
+    averaging_positions: int | None = None
 
 
 @dataclass(frozen=True)
@@ -185,7 +192,8 @@ class DriveSpec:
     speed); ``current_limit_peak_A``, peak phase A (None: the overload current, else the
     rated); ``copper_temperature_C``; ``end_winding_length``, m per coil end (None: estimated);
     ``flux_map_points`` per axis, from 0 to ``flux_map_max_current_peak_A`` (None: the current
-    limit), averaged over ``flux_map_positions`` rotor positions; ``rib_safety_factor`` on the
+    limit), averaged over ``flux_map_positions`` rotor positions (None: the machine's
+    averaging count, see :mod:`fluxlab.averaging`); ``rib_safety_factor`` on the
     rotor steel's yield strength.
     """
 
@@ -197,7 +205,7 @@ class DriveSpec:
     end_winding_length: float | None = None
     flux_map_points: int = 9
     flux_map_max_current_peak_A: float | None = None
-    flux_map_positions: int = 1
+    flux_map_positions: int | None = None
     rib_safety_factor: float = 1.5
 
 

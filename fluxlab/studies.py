@@ -7,21 +7,33 @@ d-axis (gamma = 0: pure id); positive torque turns the rotor counter-clockwise.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
-from .model import MachineModel, current_density, phase_currents
-from .post import flux_linkage_abc, machine_energy, park, torque_maxwell
-from .solver import FieldSolution, solve_field
+from .averaging import (
+    averaging_steps,
+    equally_spaced_steps,
+    period_steps,
+    periods_per_revolution,
+    ripple_positions,
+)
+from .model import MachineModel
+from .operating_point import (
+    AveragedPoint,
+    PointResult,
+    averaged_point,
+    mtpa_search,
+    solve_point,
+)
 
 __all__ = [
-    "PointResult",
-    "solve_point",
-    "torque_period",
+    "ANGLE_STEP_DEG",
     "ripple_steps",
+    "torque_harmonics",
     "TorqueVsPosition",
     "torque_vs_position",
     "solve_positions",
@@ -30,104 +42,25 @@ __all__ = [
     "torque_vs_current_angle",
     "InductanceCurves",
     "inductance_curves",
-    "power_factor",
+    "join_inductance_curves",
 ]
 
 Progress = Callable[[str], None]
 
-
-@dataclass(frozen=True, eq=False)
-class PointResult:
-    """One solved operating point at one rotor step (whole machine, SI units)."""
-
-    current_peak_A: float
-    current_angle: float
-    step: int
-    position: float
-    i_d: float
-    i_q: float
-    psi_d: float
-    psi_q: float
-    torque_maxwell_Nm: float
-    torque_dq_Nm: float
-    coenergy_J: float
-    iterations: int
-    solution: FieldSolution
-
-
-def solve_point(
-    model: MachineModel,
-    current_peak: float,
-    current_angle: float,
-    step: int,
-    initial: np.ndarray | None = None,
-) -> PointResult:
-    """Solve one operating point at rotor step ``step`` (see :func:`fluxlab.model.rotor_step`).
-
-    The phase currents follow the rotor: the dq current is fixed in the rotor frame.
-    """
-    p = model.spec.pole_pairs
-    position = (step - model.axis_step) * model.step_angle
-    theta_e = p * position
-    i_abc = phase_currents(current_peak, current_angle, theta_e)
-    solution = solve_field(model.problem, current_density(model, i_abc), step, initial=initial,
-                           rtol=model.newton_rtol, linear_solver=model.linear_solver)
-    psi_d, psi_q = park(flux_linkage_abc(model, solution), theta_e)
-    i_d, i_q = current_peak * math.cos(current_angle), current_peak * math.sin(current_angle)
-    return PointResult(
-        current_peak_A=current_peak,
-        current_angle=current_angle,
-        step=step,
-        position=position,
-        i_d=i_d,
-        i_q=i_q,
-        psi_d=psi_d,
-        psi_q=psi_q,
-        torque_maxwell_Nm=torque_maxwell(model, solution),
-        # T = 3/2 p (psi_d i_q - psi_q i_d): amplitude-invariant Park transform
-        torque_dq_Nm=1.5 * p * (psi_d * i_q - psi_q * i_d),
-        coenergy_J=machine_energy(model, solution)[1],
-        iterations=solution.iterations,
-        solution=solution,
-    )
-
-
-def power_factor(psi_d: float, psi_q: float, i_d: float, i_q: float) -> float:
-    """Displacement power factor with the resistance neglected.
-
-    Steady state v_d = -omega psi_q, v_q = omega psi_d; the factor is the cosine of the angle
-    between the voltage and current vectors.
-    """
-    v_angle = math.atan2(psi_d, -psi_q)
-    i_angle = math.atan2(i_q, i_d)
-    return math.cos(v_angle - i_angle)
-
-
-def torque_period(model: MachineModel) -> float:
-    """Mechanical period of torque versus rotor position at fixed dq current, rad.
-
-    Two families of torque harmonics set it: slotting against the rotor poles repeats at
-    2 pi / lcm(Q, 2p) (the cogging period), and the winding's space harmonics against the
-    rotor repeat every 60 electrical degrees, 2 pi / 6p. The sum repeats at the least
-    common multiple of the two periods, i.e. 2 pi / gcd(lcm(Q, 2p), 6p) (common practice,
-    no source). Integral-slot windings: 60 electrical degrees.
-    """
-    q_slots, p = model.spec.stator.slots, model.spec.pole_pairs
-    return 2 * math.pi / math.gcd(math.lcm(q_slots, 2 * p), 6 * p)
+#: Grid step of the current-angle study, deg: the curve's shape; the MTPA search between the
+#: grid angles around the best one finds the peak to 0.1 deg whatever the step.
+ANGLE_STEP_DEG = 22.5
 
 
 def ripple_steps(model: MachineModel, samples: int | None = None) -> np.ndarray:
-    """Rotor steps over one torque period, evenly spaced, end point excluded.
+    """Rotor steps of the torque-ripple study: equally spaced over one torque period.
 
-    Default: ``steps_per_slot`` samples per slot pitch of span (at least 12 per slot pitch).
+    Default: :func:`fluxlab.averaging.ripple_positions` (``mesh.steps_per_slot`` per slot
+    pitch of span). A count that does not divide the period's steps is refused
+    (:func:`fluxlab.averaging.equally_spaced_steps`).
     """
-    period_steps = round(torque_period(model) / model.step_angle)
-    if samples is None:
-        per_slot = model.spec.mesh.steps_per_slot
-        slot_steps = 2 * math.pi / model.spec.stator.slots / model.step_angle
-        samples = max(1, round(per_slot * period_steps / slot_steps))
-    stride = max(1, period_steps // samples)
-    return model.axis_step + np.arange(0, period_steps, stride)
+    count = ripple_positions(model.spec) if samples is None else samples
+    return equally_spaced_steps(model, period_steps(model), count, "ripple positions")
 
 
 @dataclass(frozen=True, eq=False)
@@ -135,8 +68,11 @@ class TorqueVsPosition:
     """Torque versus rotor position at a fixed dq current over one torque period.
 
     ``position_deg``: mechanical degrees from position zero (d-axis on phase-a axis).
-    ``harmonic_orders`` / ``harmonic_amplitudes_Nm``: torque harmonics above 1 % of the mean,
-    orders counted per electrical period (order 6 repeats six times per electrical cycle).
+    ``torque_Nm``: air-gap (Maxwell stress) torque; ``torque_maxwell_mean_Nm`` its mean over
+    the positions; ``ripple_pct``: peak to peak over that mean. ``harmonic_*``: every order
+    the sampling resolves (up to half the sample count per period), with
+    torque = mean + sum A_k cos(k theta_e + phi_k), k the order per electrical period and
+    theta_e the electrical rotor position from position zero.
     """
 
     current_peak_A: float
@@ -146,21 +82,30 @@ class TorqueVsPosition:
     torque_dq_Nm: np.ndarray
     psi_d_Wb: np.ndarray
     psi_q_Wb: np.ndarray
-    torque_mean_Nm: float
+    torque_maxwell_mean_Nm: float
     ripple_pct: float
     harmonic_orders: np.ndarray
     harmonic_amplitudes_Nm: np.ndarray
+    harmonic_phases_deg: np.ndarray
     iterations: np.ndarray
 
 
-def _harmonics(model: MachineModel, torque: np.ndarray, mean: float):
-    spectrum = np.abs(np.fft.rfft(torque)) / len(torque)
-    spectrum[1:] *= 2
-    # the sampled span is one torque period: harmonic k has k periods in it
-    per_electrical = 2 * math.pi / torque_period(model) / model.spec.pole_pairs
-    orders = np.arange(len(spectrum)) * per_electrical
-    keep = (np.arange(len(spectrum)) > 0) & (spectrum > 0.01 * abs(mean))
-    return np.round(orders[keep], 6), spectrum[keep]
+def torque_harmonics(model: MachineModel, torque: np.ndarray):
+    """Orders (per electrical period), amplitudes (N m) and phases (deg) of a torque series.
+
+    ``torque``: samples equally spaced over one torque period from position zero, end point
+    excluded. Every order the samples resolve is returned, 1 to n // 2 cycles per period (at
+    n // 2, for even n, the cosine part only).
+    """
+    n = len(torque)
+    coefficients = np.fft.rfft(torque)[1:] / n
+    amplitudes = 2 * np.abs(coefficients)
+    if n % 2 == 0:
+        amplitudes[-1] /= 2
+    spec = model.spec
+    per_period = periods_per_revolution(spec.stator.slots, spec.pole_pairs) / spec.pole_pairs
+    orders = np.arange(1, len(coefficients) + 1) * per_period
+    return np.round(orders, 9), amplitudes, np.degrees(np.angle(coefficients))
 
 
 def solve_positions(
@@ -189,7 +134,7 @@ def position_study(model: MachineModel, points: Sequence[PointResult]) -> Torque
     """The torque-versus-position result of points at one dq current over a torque period."""
     torque = np.array([pt.torque_maxwell_Nm for pt in points])
     mean = float(torque.mean())
-    orders, amplitudes = _harmonics(model, torque, mean)
+    orders, amplitudes, phases = torque_harmonics(model, torque)
     return TorqueVsPosition(
         current_peak_A=points[0].current_peak_A,
         current_angle_deg=math.degrees(points[0].current_angle),
@@ -198,10 +143,11 @@ def position_study(model: MachineModel, points: Sequence[PointResult]) -> Torque
         torque_dq_Nm=np.array([pt.torque_dq_Nm for pt in points]),
         psi_d_Wb=np.array([pt.psi_d for pt in points]),
         psi_q_Wb=np.array([pt.psi_q for pt in points]),
-        torque_mean_Nm=mean,
+        torque_maxwell_mean_Nm=mean,
         ripple_pct=float(100 * np.ptp(torque) / abs(mean)) if mean else math.inf,
         harmonic_orders=orders,
         harmonic_amplitudes_Nm=amplitudes,
+        harmonic_phases_deg=phases,
         iterations=np.array([pt.iterations for pt in points]),
     )
 
@@ -213,7 +159,8 @@ def torque_vs_position(
     steps: Sequence[int] | None = None,
     progress: Progress | None = None,
 ) -> tuple[TorqueVsPosition, list[PointResult]]:
-    """Torque over one torque period (see :func:`torque_period`), warm-started step to step."""
+    """Torque over one torque period (:func:`fluxlab.averaging.torque_period`), warm-started
+    step to step."""
     steps = ripple_steps(model) if steps is None else np.asarray(steps)
     points = solve_positions(model, current_peak, current_angle, steps, progress)
     return position_study(model, points), points
@@ -221,125 +168,183 @@ def torque_vs_position(
 
 @dataclass(frozen=True, eq=False)
 class TorqueVsAngle:
-    """Mean torque versus current angle at a fixed current amplitude.
+    """Averaged torque versus current angle at one current amplitude (peak A).
 
-    Each torque is the mean over ``positions`` rotor positions spread over one torque
-    period. ``mtpa_angle_deg``: the angle of maximum torque (maximum torque per ampere).
+    Each angle is an :class:`~fluxlab.operating_point.AveragedPoint` (the same engine as the
+    rated point): the grid, the angles asked for, and the MTPA search's angles, in angle
+    order. ``torque_Nm``: 3/2 p (psi_d i_q - psi_q i_d) of the position-mean flux linkages;
+    ``torque_maxwell_Nm``: the mean air-gap torque at the same positions (a cross-check).
+    ``mtpa_angle_deg`` / ``mtpa_torque_Nm``: the maximum found by
+    :func:`~fluxlab.operating_point.mtpa_search`, to ``mtpa_tolerance_deg``, in
+    ``mtpa_solves`` 2-D solves; ``positions``: rotor positions per angle.
     """
 
     current_peak_A: float
-    current_angle_deg: np.ndarray
-    torque_Nm: np.ndarray
-    torque_dq_Nm: np.ndarray
-    psi_d_Wb: np.ndarray
-    psi_q_Wb: np.ndarray
-    power_factor: np.ndarray
-    mtpa_angle_deg: float
-    mtpa_torque_Nm: float
+    points: tuple[AveragedPoint, ...]
+    mtpa: AveragedPoint
+    mtpa_tolerance_deg: float
+    mtpa_solves: int
     positions: int
 
+    @property
+    def current_angle_deg(self) -> np.ndarray:
+        return np.array([pt.current_angle_deg for pt in self.points])
 
-def _mean_point(model, current_peak, angle, steps, starts: dict):
-    """Mean over ``steps``; each step starts from ``starts[step]`` (the same rotor step at
-    the previous angle: 40 % fewer Newton steps than the previous position) and updates it."""
-    points = []
-    for step in steps:
-        pt = solve_point(model, current_peak, angle, int(step), starts.get(int(step)))
-        starts[int(step)] = pt.solution.a
-        points.append(pt)
-    return {k: float(np.mean([getattr(pt, k) for pt in points]))
-            for k in ("torque_maxwell_Nm", "torque_dq_Nm", "psi_d", "psi_q")}
+    @property
+    def torque_Nm(self) -> np.ndarray:
+        return np.array([pt.torque_Nm for pt in self.points])
 
+    @property
+    def torque_maxwell_Nm(self) -> np.ndarray:
+        return np.array([pt.torque_maxwell_Nm for pt in self.points])
 
-def _parabola_peak(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
-    """Vertex of the parabola through three points."""
-    c2, c1, c0 = np.polyfit(x, y, 2)
-    if c2 >= 0:
-        k = int(np.argmax(y))
-        return float(x[k]), float(y[k])
-    xv = -c1 / (2 * c2)
-    return float(xv), float(np.polyval([c2, c1, c0], xv))
+    @property
+    def psi_d_Wb(self) -> np.ndarray:
+        return np.array([pt.psi_d for pt in self.points])
+
+    @property
+    def psi_q_Wb(self) -> np.ndarray:
+        return np.array([pt.psi_q for pt in self.points])
+
+    @property
+    def power_factor(self) -> np.ndarray:
+        return np.array([pt.power_factor for pt in self.points])
+
+    @property
+    def mtpa_angle_deg(self) -> float:
+        return self.mtpa.current_angle_deg
+
+    @property
+    def mtpa_torque_Nm(self) -> float:
+        return self.mtpa.torque_Nm
+
+    def with_points(self, extra: Sequence[AveragedPoint]) -> TorqueVsAngle:
+        """A copy with ``extra`` points of this current joined to the curve (angle order)."""
+        merged = {round(pt.current_angle_deg, 9): pt for pt in (*self.points, *extra)}
+        return dataclasses.replace(self, points=tuple(merged[a] for a in sorted(merged)))
+
+    def at(self, angle_deg: float) -> AveragedPoint:
+        """The point solved at ``angle_deg`` (KeyError when that angle was not solved)."""
+        for pt in self.points:
+            if abs(pt.current_angle_deg - angle_deg) < 1e-9:
+                return pt
+        raise KeyError(f"current angle {angle_deg} deg was not solved")
 
 
 def torque_vs_current_angle(
     model: MachineModel,
     current_peak: float,
-    angle_step_deg: float = 10.0,
-    positions: int = 4,
+    angle_step_deg: float = ANGLE_STEP_DEG,
+    positions: int | None = None,
     progress: Progress | None = None,
+    extra_angles_deg: Sequence[float] = (),
+    ends: bool = True,
 ) -> TorqueVsAngle:
-    """Mean torque from 0 to 90 degrees of current angle, with the MTPA angle refined.
+    """Averaged torque from 0 to 90 degrees of current angle, and the MTPA angle.
 
-    The coarse grid has ``angle_step_deg`` spacing; the peak is then refined with two more
-    angles at a quarter step on either side of the best grid angle and the vertex of the
-    parabola through the three best points (a smooth peak; common practice, no source).
+    A grid of ``angle_step_deg`` (plus ``extra_angles_deg``) draws the curve; the MTPA is
+    then found by a bounded maximisation between the grid angles on either side of the best
+    one (:func:`~fluxlab.operating_point.mtpa_search`, to 0.1 deg). ``positions``: rotor
+    positions per angle (default: the machine's averaging count). ``ends`` False leaves out
+    0 and 90 deg (pure i_d and pure i_q: the one-axis points of :func:`inductance_curves`,
+    to be joined with :meth:`TorqueVsAngle.with_points`). Every point of one rotor step
+    starts from the same step's field at the grid angle before, or, in the search, at the
+    nearest angle solved.
     """
-    steps = ripple_steps(model, positions)
-    angles = list(np.radians(np.arange(0.0, 90.0 + 1e-9, angle_step_deg)))
-    results: dict[float, dict] = {}
+    steps = averaging_steps(model, positions)
+    # rounded, so that an angle asked for in radians and the grid's do not come out twice
+    grid = sorted({*np.arange(0.0, 90.0 + 1e-9, angle_step_deg).round(9).tolist(), 90.0,
+                   *(round(float(a), 9) for a in extra_angles_deg)})
+    if not ends:
+        grid = [a for a in grid if 0.0 < a < 90.0]
     starts: dict[int, np.ndarray] = {}
-    snapshots = {}
-    for k, angle in enumerate(angles):
-        results[angle] = _mean_point(model, current_peak, angle, steps, starts)
-        snapshots[angle] = dict(starts)
+    fields: dict[float, dict[int, np.ndarray]] = {}  # angle (rad) -> field per rotor step
+    points: dict[float, AveragedPoint] = {}
+    for k, angle in enumerate(grid):
+        points[angle] = averaged_point(model, current_peak, math.radians(angle), steps, starts)
+        fields[math.radians(angle)] = dict(starts)
         if progress:
-            progress(f"torque vs current angle {k + 1}/{len(angles)} at {current_peak:g} A")
-    best = max(results, key=lambda a: results[a]["torque_maxwell_Nm"])
-    h = math.radians(angle_step_deg) / 4
-    for angle in (best - h, best + h):
-        if 0 < angle < math.pi / 2:  # start from the best grid angle's fields
-            results[angle] = _mean_point(model, current_peak, angle, steps,
-                                         dict(snapshots[best]))
-    order = sorted(results)
-    torque = np.array([results[a]["torque_maxwell_Nm"] for a in order])
-    k = int(np.argmax(torque))
-    k = min(max(k, 1), len(order) - 2)
-    mtpa, mtpa_torque = _parabola_peak(np.array(order[k - 1:k + 2]), torque[k - 1:k + 2])
-    psi_d = np.array([results[a]["psi_d"] for a in order])
-    psi_q = np.array([results[a]["psi_q"] for a in order])
-    pf = np.array([power_factor(pd, pq, current_peak * math.cos(a), current_peak * math.sin(a))
-                   for pd, pq, a in zip(psi_d, psi_q, order)])
+            progress(f"torque vs current angle {k + 1}/{len(grid)} at {current_peak:g} A")
+    search = mtpa_search(model, current_peak, list(points.values()), steps, fields)
+    for pt in search.evaluated:
+        points.setdefault(round(pt.current_angle_deg, 9), pt)
     return TorqueVsAngle(
         current_peak_A=current_peak,
-        current_angle_deg=np.degrees(order),
-        torque_Nm=torque,
-        torque_dq_Nm=np.array([results[a]["torque_dq_Nm"] for a in order]),
-        psi_d_Wb=psi_d,
-        psi_q_Wb=psi_q,
-        power_factor=pf,
-        mtpa_angle_deg=math.degrees(mtpa),
-        mtpa_torque_Nm=mtpa_torque,
+        points=tuple(points[a] for a in sorted(points)),
+        mtpa=search.point,
+        mtpa_tolerance_deg=search.tolerance_deg,
+        mtpa_solves=search.solves,
         positions=len(steps),
     )
 
 
 @dataclass(frozen=True, eq=False)
 class InductanceCurves:
-    """Apparent inductances versus current at rotor position zero (saturation curves).
+    """Apparent inductances with the current on one axis, against current (saturation).
 
-    ``L_d_H`` = psi_d / i_d with i_q = 0; ``L_q_H`` = psi_q / i_q with i_d = 0.
+    ``Ld_one_axis_H`` = <psi_d> / i_d with i_q = 0; ``Lq_one_axis_H`` = <psi_q> / i_q with
+    i_d = 0; flux linkages averaged over ``positions`` rotor positions of a torque period
+    (``d_points``, ``q_points``: the averaged points per current, None where not solved).
+    Not the apparent inductances at an operating point (both currents on, cross-saturated),
+    nor the incremental ones of the flux maps.
     """
 
     current_peak_A: np.ndarray
-    psi_d_Wb: np.ndarray
-    psi_q_Wb: np.ndarray
-    L_d_H: np.ndarray
-    L_q_H: np.ndarray
+    d_points: tuple[AveragedPoint | None, ...]
+    q_points: tuple[AveragedPoint | None, ...]
+    positions: int
+
+    @property
+    def psi_d_Wb(self) -> np.ndarray:
+        return np.array([math.nan if pt is None else pt.psi_d for pt in self.d_points])
+
+    @property
+    def psi_q_Wb(self) -> np.ndarray:
+        return np.array([math.nan if pt is None else pt.psi_q for pt in self.q_points])
+
+    @property
+    def Ld_one_axis_H(self) -> np.ndarray:
+        return self.psi_d_Wb / self.current_peak_A
+
+    @property
+    def Lq_one_axis_H(self) -> np.ndarray:
+        return self.psi_q_Wb / self.current_peak_A
+
+    @property
+    def saliency_one_axis(self) -> np.ndarray:
+        """Ld / Lq with the current on one axis at a time, per current."""
+        return self.Ld_one_axis_H / self.Lq_one_axis_H
+
+    def ends_at(self, current_peak: float) -> tuple[AveragedPoint, ...]:
+        """The solved points at ``current_peak`` (0 and 90 deg of a current-angle curve)."""
+        k = np.flatnonzero(np.isclose(self.current_peak_A, current_peak, rtol=1e-12))
+        return tuple(pt for pts in (self.d_points, self.q_points) for j in k
+                     if (pt := pts[j]) is not None)
 
 
 def inductance_curves(
-    model: MachineModel, currents: Sequence[float], progress: Progress | None = None
+    model: MachineModel, currents: Sequence[float], progress: Progress | None = None,
+    positions: int | None = None, axes: Sequence[str] = ("d", "q"),
 ) -> InductanceCurves:
-    """Ld(id) at iq = 0 and Lq(iq) at id = 0, at rotor position zero."""
+    """Ld(i_d) at i_q = 0 and Lq(i_q) at i_d = 0, averaged over the machine's positions.
+
+    ``axes``: both (default), or one of them (the other curve is then not solved), so that
+    the two can run in parallel and be joined with :func:`join_inductance_curves`. Along a
+    curve every rotor step starts from its field at the current before.
+    """
     currents = np.asarray(currents, dtype=float)
-    psi = {0.0: [], math.pi / 2: []}
-    for angle in psi:
-        initial = None
-        for current in currents:
-            pt = solve_point(model, float(current), angle, model.axis_step, initial)
-            initial = pt.solution.a
-            psi[angle].append(pt.psi_d if angle == 0.0 else pt.psi_q)
+    steps = averaging_steps(model, positions)
+    points: dict[str, list] = {"d": [None] * currents.size, "q": [None] * currents.size}
+    for axis in axes:
+        starts: dict[int, np.ndarray] = {}
+        for k, current in enumerate(currents):
+            angle = 0.0 if axis == "d" else math.pi / 2
+            points[axis][k] = averaged_point(model, float(current), angle, steps, starts)
             if progress:
-                progress(f"{'d' if angle == 0 else 'q'}-axis inductance at {current:.3g} A")
-    psi_d, psi_q = np.array(psi[0.0]), np.array(psi[math.pi / 2])
-    return InductanceCurves(currents, psi_d, psi_q, psi_d / currents, psi_q / currents)
+                progress(f"{axis}-axis inductance at {current:.3g} A")
+    return InductanceCurves(currents, tuple(points["d"]), tuple(points["q"]), len(steps))
+
+
+def join_inductance_curves(d: InductanceCurves, q: InductanceCurves) -> InductanceCurves:
+    """The d-axis curve of ``d`` and the q-axis curve of ``q`` (same currents) as one."""
+    return InductanceCurves(d.current_peak_A, d.d_points, q.q_points, d.positions)

@@ -9,14 +9,25 @@ import numpy as np
 
 from .evaluate import Evaluation
 
-__all__ = ["write_csv", "evaluation_tables"]
+__all__ = ["write_csv", "evaluation_tables", "HARMONICS_CONVENTION"]
+
+#: How torque_harmonics.csv is to be read.
+HARMONICS_CONVENTION = (
+    "torque = mean + sum of amplitude_Nm * cos(order * theta_e + phase_deg), theta_e the "
+    "electrical rotor position from position 0; order per electrical period; every order the "
+    "samples resolve")
 
 
-def write_csv(path: Path, columns: dict[str, np.ndarray]) -> Path:
-    """Write equal-length columns to ``path``; keys are the header (with units)."""
+def write_csv(path: Path, columns: dict[str, np.ndarray], comment: str | None = None) -> Path:
+    """Write equal-length columns to ``path``; keys are the header (with units).
+
+    ``comment``: a first line starting with ``#`` (a convention the columns follow).
+    """
     names = list(columns)
     rows = np.column_stack([np.asarray(columns[n], dtype=float) for n in names])
     with path.open("w", newline="") as f:
+        if comment:
+            f.write(f"# {comment}\n")
         writer = csv.writer(f)
         writer.writerow(names)
         writer.writerows([[f"{v:.10g}" for v in row] for row in rows])
@@ -39,22 +50,25 @@ def evaluation_tables(evaluation: Evaluation) -> dict[str, dict[str, np.ndarray]
         tables["torque_harmonics"] = {
             "order_per_electrical_period": r.harmonic_orders,
             "amplitude_Nm": r.harmonic_amplitudes_Nm,
+            "phase_deg": r.harmonic_phases_deg,
         }
-    rows = [(s.current_peak_A, a, t, td, pd, pq, pf) for s in evaluation.torque_vs_angle
-            for a, t, td, pd, pq, pf in zip(s.current_angle_deg, s.torque_Nm, s.torque_dq_Nm,
-                                            s.psi_d_Wb, s.psi_q_Wb, s.power_factor)]
+    rows = [(s.current_peak_A, a, t, tm, pd, pq, pf) for s in evaluation.torque_vs_angle
+            for a, t, tm, pd, pq, pf in zip(s.current_angle_deg, s.torque_Nm,
+                                            s.torque_maxwell_Nm, s.psi_d_Wb, s.psi_q_Wb,
+                                            s.power_factor)]
     if rows:
         cols = np.array(rows).T
         tables["torque_vs_current_angle"] = dict(zip(
-            ["current_peak_A", "current_angle_deg", "torque_Nm", "torque_dq_Nm", "psi_d_Wb",
-             "psi_q_Wb", "power_factor"], cols))
+            ["current_peak_A", "current_angle_deg", "torque_Nm", "torque_maxwell_Nm",
+             "psi_d_Wb", "psi_q_Wb", "power_factor"], cols))
     c = evaluation.inductances
     if c is not None:
         tables["inductance_vs_current"] = {
             "current_peak_A": c.current_peak_A,
             "psi_d_Wb": c.psi_d_Wb,
             "psi_q_Wb": c.psi_q_Wb,
-            "Ld_H": c.L_d_H,
-            "Lq_H": c.L_q_H,
+            "Ld_one_axis_H": c.Ld_one_axis_H,
+            "Lq_one_axis_H": c.Lq_one_axis_H,
+            "saliency_one_axis": c.saliency_one_axis,
         }
     return tables

@@ -63,14 +63,27 @@ def test_solve_writes_field_and_json(coarse_machine, tmp_path):
 @pytest.mark.slow  # a full (coarse) evaluation: about a minute
 def test_evaluate_writes_every_output(coarse_machine, tmp_path):
     args = ["evaluate", str(coarse_machine), "--out", str(tmp_path), "--angle-step-deg", "30",
-            "--angle-positions", "1", "--inductance-points", "2", "--workers", "2", "--full"]
+            "--positions", "2", "--inductance-points", "2", "--workers", "2", "--full"]
     assert main(args) == 0
     summary = json.loads((tmp_path / "summary.json").read_text())
-    for key in ("Ld_H", "Lq_H", "saliency_ratio", "torque_mean_Nm", "torque_ripple_pct",
+    for key in ("Ld_apparent_H", "Lq_apparent_H", "saliency_apparent", "Ld_one_axis_H",
+                "Lq_one_axis_H", "saliency_one_axis", "torque_mean_Nm", "torque_ripple_pct",
                 "mtpa_angle_deg", "power_factor", "current_peak_A", "current_angle_deg",
-                "nodes", "solver", "fluxlab_version"):
+                "nodes", "solver", "fluxlab_version", "averaging", "flux_density"):
         assert summary[key] is not None, key
-    assert summary["saliency_ratio"] > 1
+    assert summary["saliency_apparent"] > 1 and summary["averaging"]["positions"] == 2
+    # one rated torque and one MTPA per current, the same in evaluate and in the envelope
+    envelope = json.loads((tmp_path / "envelope" / "envelope_summary.json").read_text())
+    assert envelope["rated"]["torque_Nm"] == pytest.approx(summary["torque_mean_Nm"], rel=5e-3)
+    mtpa = {round(m["current_peak_A"], 6): m for m in envelope["mtpa"]}
+    for prefix, current in (("", summary["current_peak_A"]),
+                            ("overload_", summary["overload_current_peak_A"])):
+        assert mtpa[current]["current_angle_deg"] == pytest.approx(
+            summary[f"{prefix}mtpa_angle_deg"], abs=0.5)
+        assert mtpa[current]["torque_Nm"] == pytest.approx(
+            summary[f"{prefix}mtpa_torque_Nm"], rel=5e-3)
+    harmonics = (tmp_path / "torque_harmonics.csv").read_text().splitlines()
+    assert harmonics[0].startswith("# torque = mean") and "phase_deg" in harmonics[1]
     for name in ("torque_vs_position", "torque_vs_current_angle", "inductance_vs_current"):
         assert (tmp_path / f"{name}.csv").read_text().splitlines()[0].count("_") >= 2
         assert (tmp_path / f"{name}.png").stat().st_size > 0

@@ -13,6 +13,7 @@ from hypothesis import strategies as st
 
 from fluxlab.cli import main
 from fluxlab.cli.envelope import write_envelope
+from fluxlab.dq import power_factor
 from fluxlab.envelope import (
     envelope_settings,
     flux_map_from_arrays,
@@ -24,6 +25,7 @@ from fluxlab.envelope import (
 from fluxlab.envelope.ironloss import IronLoss, RegionLoss
 from fluxlab.envelope.study import EnvelopeResult, _rated_point, _summary
 from fluxlab.errors import SpecError
+from fluxlab.operating_point import AveragedPoint, OperatingPoints
 from fluxlab.spec import load_machine, machine_from_dict
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
@@ -45,10 +47,17 @@ def _synthetic_result():
                      RegionLoss("stator yoke", 12.0, 30.0, 9.0, 6.0),
                      RegionLoss("rotor", 11.0, 1.0, 0.5, 0.5)), 1500.0, 50.0, 25.0, 45.0, 48)
     ribs = rib_stress(spec, s.max_speed_rpm)
-    rated = _rated_point(spec, fmap, res, iron, math.pi / 4)
-    summary = _summary(s, env, res, rated, ribs, fmap)
+    current, gamma = spec.operating.current_peak_A, math.pi / 4
+    i_d, i_q = current * math.cos(gamma), current * math.sin(gamma)
+    psi_d, psi_q = 0.05 * i_d, 0.012 * i_q
+    torque = 1.5 * spec.pole_pairs * (psi_d * i_q - psi_q * i_d)
+    point = AveragedPoint(current, gamma, i_d, i_q, psi_d, psi_q, torque, torque,
+                          power_factor(psi_d, psi_q, i_d, i_q), 1, 0)
+    operating = OperatingPoints(point, {current: point})
+    rated = _rated_point(spec, point, res, iron)
+    summary = _summary(s, env, res, rated, ribs, fmap, operating)
     return EnvelopeResult(spec, s, fmap, mtpa_trajectory(fmap), res, env, iron, rated, ribs,
-                          summary)
+                          operating, summary)
 
 
 def test_writer_tables_have_units_and_figures_exist(tmp_path):
@@ -65,7 +74,7 @@ def test_writer_tables_have_units_and_figures_exist(tmp_path):
     assert rows[0]["region"] == "MTPA"
     with (tmp_path / "flux_map.csv").open() as f:
         rows = list(csv.DictReader(f))
-    assert len(rows) == 25 and "L_dq_H" in rows[0] and "psi_d_Wb" in rows[0]
+    assert len(rows) == 25 and "Ldq_incremental_H" in rows[0] and "psi_d_Wb" in rows[0]
     # the inverse table of the linear map: id = psi_d / Ld wherever it is defined
     with (tmp_path / "flux_map_inverse.csv").open() as f:
         inv = [r for r in csv.DictReader(f) if r["id_A"] != "nan"]

@@ -145,8 +145,10 @@ def test_resistance_voltage_at_base_speed():
 def test_incremental_inductances_and_inverse_of_a_linear_map():
     fmap = _linear_map(points=6)
     lk = incremental_inductances(fmap)
-    assert np.allclose(lk["L_dd_H"], LD) and np.allclose(lk["L_qq_H"], LQ)
-    assert np.allclose(lk["L_dq_H"], 0.0) and np.allclose(lk["L_qd_H"], 0.0)
+    assert np.allclose(lk["Ldd_incremental_H"], LD)
+    assert np.allclose(lk["Lqq_incremental_H"], LQ)
+    assert np.allclose(lk["Ldq_incremental_H"], 0.0)
+    assert np.allclose(lk["Lqd_incremental_H"], 0.0)
     inv = inverse_tables(fmap, points=7)
     pd, pq = np.meshgrid(inv.psi_d_Wb, inv.psi_q_Wb, indexing="ij")
     assert np.all(np.isfinite(inv.i_d_A))  # the image of the square is the whole box

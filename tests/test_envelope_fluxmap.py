@@ -13,8 +13,9 @@ import pytest
 from fluxlab.envelope import flux_map, incremental_inductances, mtpa_trajectory
 from fluxlab.envelope.ironloss import sweep_steps
 from fluxlab.model import build_model
+from fluxlab.operating_point import solve_point
 from fluxlab.spec import load_machine
-from fluxlab.studies import inductance_curves, solve_point
+from fluxlab.studies import inductance_curves
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 LINEAR_STEEL = {"linear_mu_r": 2000.0}
@@ -50,8 +51,8 @@ def test_linear_maps_are_planes_without_cross_saturation(linear_map):
     assert np.abs(f.psi_d_Wb - ld * d).max() < 0.005 * np.abs(f.psi_d_Wb).max()
     assert np.abs(f.psi_q_Wb - lq * q).max() < 0.005 * np.abs(f.psi_q_Wb).max()
     lk = incremental_inductances(f)
-    assert np.abs(lk["L_dq_H"]).max() < 0.005 * ld
-    assert np.abs(lk["L_qd_H"]).max() < 0.005 * lq
+    assert np.abs(lk["Ldq_incremental_H"]).max() < 0.005 * ld
+    assert np.abs(lk["Lqd_incremental_H"]).max() < 0.005 * lq
 
 
 def test_linear_mtpa_is_the_45_degree_line(linear_map):
@@ -67,9 +68,9 @@ def saturable_map(saturable_model):
 
 
 def test_saturable_d_axis_matches_the_inductance_curve(saturable_model, saturable_map):
-    # The evaluation's Ld curve (studies.inductance_curves, cold-started per axis) and the
-    # map's iq = 0 column (warm-started along rows) solve the same points: they agree to
-    # the Newton tolerance (1e-8 residual); 1e-5 relative on the flux leaves room.
+    # The evaluation's Ld curve (studies.inductance_curves, warm-started along the current)
+    # and the map's iq = 0 column (warm-started along rows) solve the same points at the same
+    # averaging positions: they agree to the Newton tolerance; 1e-5 relative leaves room.
     f = saturable_map
     curves = inductance_curves(saturable_model, f.i_d_A[1:])
     assert np.allclose(f.psi_d_Wb[1:, 0], curves.psi_d_Wb, rtol=1e-5)
@@ -84,7 +85,7 @@ def test_cross_saturation_has_the_expected_sign(saturable_map):
     assert f.psi_d_Wb[-1, -1] < 0.99 * f.psi_d_Wb[-1, 0]
     assert f.psi_q_Wb[-1, -1] < 0.99 * f.psi_q_Wb[0, -1]
     lk = incremental_inductances(f)
-    assert lk["L_dq_H"][1, 1] < 0 and lk["L_qd_H"][1, 1] < 0
+    assert lk["Ldq_incremental_H"][1, 1] < 0 and lk["Lqd_incremental_H"][1, 1] < 0
 
 
 def test_map_torque_agrees_with_maxwell_torque(saturable_model):

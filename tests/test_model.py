@@ -13,9 +13,9 @@ from fluxlab.model import (
     current_density,
     phase_currents,
 )
+from fluxlab.operating_point import solve_point
 from fluxlab.solver import element_areas
 from fluxlab.spec import load_machine
-from fluxlab.studies import solve_point
 from fluxlab.winding import series_turns_per_phase
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"

@@ -14,10 +14,10 @@ from skfem import MeshTri
 
 from fluxlab.mesh import MachineMesh, _facet_indices, build_mesh
 from fluxlab.model import build_model, current_density, phase_currents
+from fluxlab.operating_point import solve_point
 from fluxlab.post import flux_linkage_abc, machine_energy, torque_maxwell
 from fluxlab.solver import solve_field
 from fluxlab.spec import load_machine
-from fluxlab.studies import solve_point
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 

@@ -14,10 +14,11 @@ import numpy as np
 import pytest
 
 from fluxlab.model import STUDY_RTOL, build_model, current_density, phase_currents
+from fluxlab.operating_point import solve_point
 from fluxlab.post import flux_linkage_abc, park, torque_maxwell
 from fluxlab.solver import solve_field
 from fluxlab.spec import load_machine
-from fluxlab.studies import ripple_steps, solve_point
+from fluxlab.studies import ripple_steps
 
 DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 

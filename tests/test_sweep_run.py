@@ -192,7 +192,7 @@ def test_command_line_writes_table_figures_and_sheets(tmp_path, capsys):
     with open(out / "results.csv", newline="") as f:
         rows = list(csv.DictReader(f))
     assert list(rows[0])[:3] == ["candidate", END1, "status"]
-    assert {"torque_mean_Nm", "torque_ripple_pct", "saliency_ratio", "message"} <= set(rows[0])
+    assert {"torque_mean_Nm", "torque_ripple_pct", "saliency_apparent", "message"} <= set(rows[0])
     assert rows[3]["status"] == "rejected" and "end_angle_deg = 80" in rows[3]["message"]
     assert "\n" not in rows[3]["message"]
 

@@ -55,6 +55,7 @@ def summary_lines(spec) -> list[str]:
         "materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
         f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
         f"{'anti-' if sign < 0 else ''}periodic edges)",
+        _averaging_line(spec),
         f"rated point  {spec.operating.current_peak_A:g} A peak"
         + (f" at {math.degrees(spec.operating.current_angle):g} deg from the d-axis"
            if spec.operating.current_angle is not None else ""),
@@ -68,3 +69,14 @@ def run(args) -> int:
         print("  " + line)
     return 0
 
+
+def _averaging_line(spec) -> str:
+    """The rotor positions of every position-averaged figure, and what they leave in."""
+    from ..averaging import averaging_positions, residual_orders, torque_period
+
+    slots, p = spec.stator.slots, spec.pole_pairs
+    count = averaging_positions(spec)
+    left = ", ".join(f"{k:g}" for k in residual_orders(slots, p, count))
+    return (f"averaging    {count} rotor positions over the torque period of "
+            f"{math.degrees(torque_period(slots, p)) * p:g} electrical deg; harmonic orders "
+            f"left in the means: {left or 'none'} (per electrical period, up to 60)")

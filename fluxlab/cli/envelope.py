@@ -65,7 +65,10 @@ def envelope_tables(result) -> dict[str, dict]:
                              "iq_A": inv.i_q_A},
         "mtpa": {"current_peak_A": m.current_peak_A, "current_angle_deg": m.current_angle_deg,
                  "torque_Nm": m.torque_Nm, "id_A": m.i_d_A, "iq_A": m.i_q_A,
-                 "psi_d_Wb": m.psi_d_Wb, "psi_q_Wb": m.psi_q_Wb},
+                 "psi_d_Wb": m.psi_d_Wb, "psi_q_Wb": m.psi_q_Wb,
+                 "source": np.array(["engine" if x else "flux map" for x in
+                                     (m.from_engine if m.from_engine is not None
+                                      else np.zeros(m.current_peak_A.size, bool))])},
         "torque_speed": {"speed_rpm": e.speed_rpm, "torque_Nm": e.torque_Nm,
                          "power_W": e.power_W, "id_A": e.i_d_A, "iq_A": e.i_q_A,
                          "current_peak_A": e.current_peak_A,

@@ -23,12 +23,16 @@ def add_args(parser) -> None:
                         "pardiso")
     parser.add_argument("--studies", choices=("full", "point"), default="full",
                         help="full evaluation (default) or the rated point only")
-    parser.add_argument("--angle-step-deg", type=float, default=10.0,
-                        help="grid step of the current-angle study (default 10)")
-    parser.add_argument("--angle-positions", type=int, default=4,
-                        help="rotor positions averaged per current angle (default 4)")
-    parser.add_argument("--inductance-points", type=int, default=8,
-                        help="currents on each saturation curve (default 8)")
+    parser.add_argument("--angle-step-deg", type=float, default=22.5,
+                        help="grid step of the current-angle study; the MTPA is then searched "
+                        "between grid angles (default 22.5)")
+    parser.add_argument("--positions", type=int, default=None,
+                        help="rotor positions averaged over one torque period for every "
+                        "position-averaged figure (default: mesh.averaging_positions, else "
+                        "the alias-free rule; the mesh is made for it)")
+    parser.add_argument("--inductance-points", type=int, default=6,
+                        help="currents on each saturation curve from 1/3 to 2 times rated, "
+                        "with the overload current (default 6)")
     parser.add_argument("--full", action="store_true",
                         help="also the operating envelope (flux maps, MTPA, torque-speed, "
                         "losses, rib stress) into DIR/envelope and review.pdf")
@@ -50,7 +54,7 @@ def _save(fig, out: Path, stem: str) -> list[Path]:
 def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
     """summary.json, a copy of the machine file and the CSV tables."""
     from ..report import CAUTION
-    from ..tables import evaluation_tables, write_csv
+    from ..tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
 
     summary = {**evaluation.summary, "caution": CAUTION}
     (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
@@ -59,7 +63,8 @@ def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
         shutil.copyfile(machine_file, out / "machine.toml")
         written.append(out / "machine.toml")
     for stem, columns in evaluation_tables(evaluation).items():
-        written.append(write_csv(out / f"{stem}.csv", columns))
+        comment = HARMONICS_CONVENTION if stem == "torque_harmonics" else None
+        written.append(write_csv(out / f"{stem}.csv", columns, comment))
     return written
 
 
@@ -137,8 +142,9 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
 
 def run(args) -> int:
     spec = load_machine(args.machine)
+    if args.positions is not None:
+        spec = spec.replace_path("mesh.averaging_positions", args.positions)
     settings = StudySettings(studies=args.studies, angle_step_deg=args.angle_step_deg,
-                             angle_positions=args.angle_positions,
                              inductance_points=args.inductance_points)
     progress = Progress()
     evaluation = evaluate(spec, settings, progress=progress, workers=args.workers,
@@ -148,18 +154,19 @@ def run(args) -> int:
         from ..envelope import envelope_study
 
         envelope = envelope_study(spec, model=evaluation.model, workers=args.workers,
-                                  progress=progress)
+                                  progress=progress, operating=evaluation.operating_points())
     progress("writing tables, figures and review.pdf")
     written = write_evaluation(evaluation, Path(args.out), Path(args.machine), envelope)
     progress.done()
     s = evaluation.summary
-    print(f"{spec.name}: Ld {s['Ld_H'] * 1e3:.2f} mH, Lq {s['Lq_H'] * 1e3:.2f} mH, "
-          f"saliency {s['saliency_ratio']:.2f}, torque {s['torque_mean_Nm']:.2f} N·m, "
+    print(f"{spec.name}: apparent Ld {s['Ld_apparent_H'] * 1e3:.2f} mH, Lq "
+          f"{s['Lq_apparent_H'] * 1e3:.2f} mH, saliency {s['saliency_apparent']:.2f} "
+          f"(at the operating point), torque {s['torque_mean_Nm']:.2f} N·m, "
           + (f"ripple {s['torque_ripple_pct']:.1f} %, " if s["torque_ripple_pct"] else "")
           + (f"MTPA {s['mtpa_angle_deg']:.1f} deg, " if s["mtpa_angle_deg"] else "")
           + f"power factor {s['power_factor']:.3f} at {s['current_peak_A']:g} A peak, "
           f"γ {s['current_angle_deg']:.1f} deg")
-    if not math.isfinite(s["saliency_ratio"]):
+    if not math.isfinite(s["saliency_apparent"]):
         print("note: Ld or Lq undefined at a current angle of 0 or 90 deg")
     print(f"wrote {len(written)} files to {args.out}")
     return 0

@@ -6,9 +6,10 @@ import json
 import math
 from pathlib import Path
 
+from ..dq import power_factor
 from ..model import build_model, rotor_step
+from ..operating_point import solve_point
 from ..spec import load_machine
-from ..studies import power_factor, solve_point
 
 __all__ = ["add_args", "run", "point_record"]
 
@@ -44,7 +45,7 @@ def point_record(model, point) -> dict:
         "power_factor": power_factor(point.psi_d, point.psi_q, point.i_d, point.i_q),
         "energy_J": model.scale * sol.energy_per_m,
         "coenergy_J": model.scale * sol.coenergy_per_m,
-        "b_max_T": float(sol.b_norm.max()),
+        "b_local_peak_T": float(sol.b_norm.max()),
         "newton_iterations": sol.iterations,
         "newton_rtol": model.newton_rtol,
         "newton_relative_residuals": list(sol.history),

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dq import dq_torque
 from ..errors import SpecError
 from .fluxmap import FluxMap
 from .interp import FluxInterpolator
@@ -113,7 +114,7 @@ def max_torque_point(interp: FluxInterpolator, resistance: float, omega_e: float
                                angles)
         i_d, i_q = current * np.cos(angles), current * np.sin(angles)
         psi_d, psi_q = interp.psi_inside(i_d, i_q)
-        return 1.5 * p * (psi_d * i_q - psi_q * i_d), current
+        return dq_torque(p, psi_d, psi_q, i_d, i_q), current
 
     gamma = np.linspace(0.0, math.pi / 2, samples)
     values, _ = torque(gamma)
@@ -209,7 +210,7 @@ def torque_speed_envelope(
                                 voltage_limit_V)
         pd, pq = (float(v) for v in interp.psi(x, y))
         vd, vq = dq_voltage(pd, pq, x, y, resistance_Ohm, omega_e)
-        torque = 1.5 * p * (pd * y - pq * x)
+        torque = dq_torque(p, pd, pq, x, y)
         pf = math.cos(math.atan2(vq, vd) - math.atan2(y, x)) if math.hypot(x, y) else math.nan
         rows.append((torque, torque * n * RPM, x, y, math.hypot(x, y),
                      math.degrees(math.atan2(y, x)), math.hypot(vd, vq), pf))
@@ -217,5 +218,5 @@ def torque_speed_envelope(
     regions = tuple(_region(c, v, current_limit_A, voltage_limit_V)
                     for c, v in zip(cols[4], cols[6], strict=True))
     return Envelope(speeds, *cols, regions, float(base),
-                    1.5 * p * (psi_d * i_q - psi_q * i_d), float(current_limit_A),
+                    dq_torque(p, psi_d, psi_q, i_d, i_q), float(current_limit_A),
                     float(voltage_limit_V), float(resistance_Ohm))

@@ -16,13 +16,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dq import dq_torque
 from ..errors import SpecError
 
 __all__ = [
     "FluxMap",
     "current_grid",
     "flux_map",
-    "flux_map_steps",
     "incremental_inductances",
     "flux_map_from_arrays",
 ]
@@ -41,7 +41,8 @@ class FluxMap:
     psi_d_Wb, psi_q_Wb
         (n, m) flux linkages, Wb-turns, indexed ``[i_d, i_q]``.
     torque_Nm
-        (n, m) Maxwell-stress torque, N m (NaN for maps not from the FEM).
+        (n, m) mean air-gap (Maxwell stress) torque at the averaged positions, N m (a
+        cross-check of :attr:`torque_dq_Nm`; NaN for maps not from the FEM).
     pole_pairs
         p, for the torque T = 3/2 p (psi_d iq - psi_q id).
     positions
@@ -60,8 +61,7 @@ class FluxMap:
     def torque_dq_Nm(self) -> np.ndarray:
         """(n, m) torque from the maps, T = 3/2 p (psi_d iq - psi_q id), N m."""
         i_d, i_q = np.meshgrid(self.i_d_A, self.i_q_A, indexing="ij")
-        # amplitude-invariant Park transform (DESIGN.md conventions)
-        return 1.5 * self.pole_pairs * (self.psi_d_Wb * i_q - self.psi_q_Wb * i_d)
+        return dq_torque(self.pole_pairs, self.psi_d_Wb, self.psi_q_Wb, i_d, i_q)
 
     @property
     def max_current_A(self) -> float:
@@ -97,31 +97,20 @@ def flux_map_from_arrays(i_d_A, i_q_A, psi_d_Wb, psi_q_Wb, pole_pairs: int,
     return FluxMap(i_d, i_q, psi_d, psi_q, torque, int(pole_pairs), int(positions))
 
 
-def flux_map_steps(model, positions: int) -> np.ndarray:
-    """Rotor steps averaged per grid point: position zero, or ``positions`` over a period."""
-    from ..studies import ripple_steps
+def _row_task(model, i_d: float, i_q_values: Sequence[float], positions: int | None):
+    """One grid row (fixed id): the engine's mean psi_d, psi_q and air-gap torque."""
+    from ..averaging import averaging_steps
+    from ..operating_point import averaged_point
 
-    if positions < 1:
-        raise SpecError(f"flux map positions = {positions}: must be at least 1")
-    return np.array([model.axis_step]) if positions == 1 else ripple_steps(model, positions)
-
-
-def _row_task(model, i_d: float, i_q_values: Sequence[float], steps: Sequence[int]):
-    """One grid row (fixed id): mean psi_d, psi_q and Maxwell torque over ``steps``."""
-    from ..studies import solve_point
-
-    initial: dict[int, np.ndarray] = {}  # warm start per rotor step along the row
+    steps = averaging_steps(model, positions)
+    starts: dict[int, np.ndarray] = {}  # warm start per rotor step along the row
     out = np.zeros((3, len(i_q_values)))
     for k, i_q in enumerate(i_q_values):
         current = math.hypot(i_d, i_q)
         if current == 0.0:
             continue  # no source and no magnet: the field is zero
-        values = []
-        for step in steps:
-            pt = solve_point(model, current, math.atan2(i_q, i_d), int(step), initial.get(step))
-            initial[step] = pt.solution.a
-            values.append((pt.psi_d, pt.psi_q, pt.torque_maxwell_Nm))
-        out[:, k] = np.mean(values, axis=0)
+        pt = averaged_point(model, current, math.atan2(i_q, i_d), steps, starts)
+        out[:, k] = pt.psi_d, pt.psi_q, pt.torque_maxwell_Nm
     return out
 
 
@@ -129,23 +118,25 @@ def flux_map(
     model,
     i_d_A: Sequence[float],
     i_q_A: Sequence[float],
-    positions: int = 1,
+    positions: int | None = None,
     workers: int = 1,
     progress: Callable[[str], None] | None = None,
 ) -> FluxMap:
     """Solve the flux map of ``model`` on the grid ``i_d_A`` x ``i_q_A`` (peak phase A).
 
-    Each grid point is solved with current_peak = hypot(id, iq) and current angle
-    atan2(iq, id), at rotor position zero (``positions`` = 1) or averaged over
-    ``positions`` rotor positions of one torque period. Rows run in ``workers`` processes.
+    Each grid point is the operating-point engine's (:mod:`fluxlab.operating_point`) at
+    current_peak = hypot(id, iq) and current angle atan2(iq, id), averaged over
+    ``positions`` rotor positions of one torque period (default: the machine's averaging
+    count). Rows run in ``workers`` processes.
     """
+    from ..averaging import averaging_steps
     from ..study_pool import run_tasks
 
     i_d, i_q = np.asarray(i_d_A, float), np.asarray(i_q_A, float)
     flux_map_from_arrays(i_d, i_q, np.zeros((i_d.size, i_q.size)),
                          np.zeros((i_d.size, i_q.size)), model.spec.pole_pairs)  # checks axes
-    steps = [int(s) for s in flux_map_steps(model, positions)]
-    tasks = [(f"flux map row id = {x:.4g} A", _row_task, (float(x), tuple(i_q), steps))
+    steps = averaging_steps(model, positions)  # checks the count before the pool starts
+    tasks = [(f"flux map row id = {x:.4g} A", _row_task, (float(x), tuple(i_q), len(steps)))
              for x in i_d]
     log.info("flux map: %d x %d points, %d position(s), %d worker(s)",
              i_d.size, i_q.size, len(steps), workers)
@@ -158,10 +149,12 @@ def flux_map(
 def incremental_inductances(fmap: FluxMap) -> dict[str, np.ndarray]:
     """Incremental (differential) inductances of the maps, H, by finite differences.
 
-    Returns ``L_dd_H`` = d psi_d / d id, ``L_dq_H`` = d psi_d / d iq (cross-saturation),
-    ``L_qd_H`` = d psi_q / d id and ``L_qq_H`` = d psi_q / d iq, each (n, m); second-order
-    central differences inside, one-sided at the edges (numpy.gradient).
+    Returns ``Ldd_incremental_H`` = d psi_d / d id, ``Ldq_incremental_H`` = d psi_d / d iq
+    (cross-saturation), ``Lqd_incremental_H`` = d psi_q / d id and ``Lqq_incremental_H`` =
+    d psi_q / d iq, each (n, m); second-order central differences inside, one-sided at the
+    edges (numpy.gradient). Not the apparent inductances psi / i.
     """
     gd = np.gradient(fmap.psi_d_Wb, fmap.i_d_A, fmap.i_q_A, edge_order=1)
     gq = np.gradient(fmap.psi_q_Wb, fmap.i_d_A, fmap.i_q_A, edge_order=1)
-    return {"L_dd_H": gd[0], "L_dq_H": gd[1], "L_qd_H": gq[0], "L_qq_H": gq[1]}
+    return {"Ldd_incremental_H": gd[0], "Ldq_incremental_H": gd[1],
+            "Lqd_incremental_H": gq[0], "Lqq_incremental_H": gq[1]}

@@ -6,6 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dq import dq_torque
 from .fluxmap import FluxMap
 
 __all__ = ["FluxInterpolator", "InverseTable", "inverse_tables"]
@@ -50,7 +51,7 @@ class FluxInterpolator:
     def torque(self, i_d, i_q) -> np.ndarray:
         """Torque T = 3/2 p (psi_d iq - psi_q id), N m, at the given currents."""
         psi_d, psi_q = self.psi(i_d, i_q)
-        return 1.5 * self.fmap.pole_pairs * (psi_d * np.asarray(i_q) - psi_q * np.asarray(i_d))
+        return dq_torque(self.fmap.pole_pairs, psi_d, psi_q, np.asarray(i_d), np.asarray(i_q))
 
 
 @dataclass(frozen=True, eq=False)

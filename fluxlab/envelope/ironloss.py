@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..averaging import equally_spaced_steps
 from ..errors import MaterialError, SpecError
 
 __all__ = [
@@ -158,7 +159,8 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
     rotor has turned one pole pitch, which leaves a reluctance rotor as it was, and the
     currents have changed sign. Where the sector is one anti-periodic pole pitch, the rotor
     field in the rotor frame repeats every T/2 as well; then half the period is solved
-    (flag True). The sample count is raised to the next that divides the period's steps.
+    (flag True). The sample count is raised to the next that divides the period's steps, so
+    that the positions are equally spaced (:func:`fluxlab.averaging.equally_spaced_steps`).
     """
     p = model.spec.pole_pairs
     period = round(2 * math.pi / p / model.step_angle)
@@ -169,7 +171,7 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
     count = next(n for n in range(samples, period + 1) if period % n == 0)
     if half and count % 2:
         count = next(n for n in range(count + 1, period + 1) if period % n == 0 and n % 2 == 0)
-    steps = model.axis_step + np.arange(count) * (period // count)
+    steps = equally_spaced_steps(model, period, count, "iron loss samples")
     return (steps[: count // 2] if half else steps), half
 
 

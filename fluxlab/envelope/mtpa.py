@@ -8,10 +8,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dq import dq_torque
 from .fluxmap import FluxMap
 from .interp import FluxInterpolator
 
-__all__ = ["MTPATrajectory", "mtpa_point", "mtpa_trajectory"]
+__all__ = ["MTPATrajectory", "mtpa_point", "mtpa_trajectory", "with_engine_points"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -19,7 +20,8 @@ class MTPATrajectory:
     """The MTPA trajectory: per current amplitude (peak phase A) the best angle and torque.
 
     ``current_angle_deg`` from the d-axis; ``torque_Nm`` = 3/2 p (psi_d iq - psi_q id)
-    of the interpolated maps.
+    of the interpolated maps, or, where ``from_engine`` is True, of the operating-point
+    engine's own MTPA search (:func:`with_engine_points`).
     """
 
     current_peak_A: np.ndarray
@@ -29,6 +31,22 @@ class MTPATrajectory:
     i_q_A: np.ndarray
     psi_d_Wb: np.ndarray
     psi_q_Wb: np.ndarray
+    from_engine: np.ndarray | None = None
+
+
+def with_engine_points(traj: MTPATrajectory, points) -> MTPATrajectory:
+    """The trajectory with the engine's MTPA points (current, peak A -> AveragedPoint) in
+    place of, or added to, the interpolated ones: where both exist the engine's are the
+    figures (a flat torque peak is ill-conditioned in angle, and the maps only interpolate).
+    """
+    rows = {round(float(c), 9): (c, a, t, d, q, pd, pq, False) for c, a, t, d, q, pd, pq in zip(
+        traj.current_peak_A, traj.current_angle_deg, traj.torque_Nm, traj.i_d_A, traj.i_q_A,
+        traj.psi_d_Wb, traj.psi_q_Wb)}
+    for current, pt in points.items():
+        rows[round(float(current), 9)] = (current, pt.current_angle_deg, pt.torque_Nm, pt.i_d,
+                                          pt.i_q, pt.psi_d, pt.psi_q, True)
+    cols = [np.array(c) for c in zip(*(rows[k] for k in sorted(rows)))]
+    return MTPATrajectory(*cols[:7], from_engine=cols[7].astype(bool))
 
 
 def mtpa_point(interp: FluxInterpolator, current: float, samples: int = 181) -> float:
@@ -60,5 +78,5 @@ def mtpa_trajectory(fmap: FluxMap, currents: Sequence[float] | None = None) -> M
     gamma = np.array([mtpa_point(interp, float(c)) for c in currents])
     i_d, i_q = currents * np.cos(gamma), currents * np.sin(gamma)
     psi_d, psi_q = interp.psi(i_d, i_q)
-    torque = 1.5 * fmap.pole_pairs * (psi_d * i_q - psi_q * i_d)
+    torque = dq_torque(fmap.pole_pairs, psi_d, psi_q, i_d, i_q)
     return MTPATrajectory(currents, np.degrees(gamma), torque, i_d, i_q, psi_d, psi_q)

@@ -10,16 +10,24 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..averaging import averaging_positions
 from ..errors import MaterialError, SpecError
+from ..operating_point import AveragedPoint, OperatingPoints
 from ..spec import MachineSpec
 from .drive import Envelope, phase_voltage_limit, torque_speed_envelope
 from .fluxmap import FluxMap, current_grid, flux_map
 from .ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
-from .mtpa import MTPATrajectory, mtpa_point, mtpa_trajectory
+from .mtpa import MTPATrajectory, mtpa_trajectory, with_engine_points
 from .resistance import PhaseResistance, phase_resistance
 from .ribstress import RibStress, rib_stress
 
-__all__ = ["EnvelopeSettings", "EnvelopeResult", "envelope_settings", "envelope_study"]
+__all__ = [
+    "EnvelopeSettings",
+    "EnvelopeResult",
+    "envelope_settings",
+    "envelope_study",
+    "operating_points",
+]
 
 log = logging.getLogger(__name__)
 
@@ -29,8 +37,10 @@ class EnvelopeSettings:
     """Settings of an envelope study, SI units except where the name says.
 
     Defaults come from the machine file's ``drive`` section (see :func:`envelope_settings`).
-    ``loss_samples``: rotor positions per electrical period of the iron-loss sweep (0 skips
-    the iron loss); ``speed_points``: speeds of the envelope from 0 to ``max_speed_rpm``.
+    ``map_positions``: rotor positions averaged per map point (the machine's averaging
+    count by default); ``loss_samples``: rotor positions per electrical period of the
+    iron-loss sweep (0 skips the iron loss); ``speed_points``: speeds of the envelope from 0
+    to ``max_speed_rpm``.
     """
 
     current_limit_A: float
@@ -71,7 +81,7 @@ def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:
         max_speed_rpm=d.max_speed_rpm or 2 * op.speed_rpm,
         map_points=d.flux_map_points,
         map_max_current_A=d.flux_map_max_current_peak_A or limit,
-        map_positions=d.flux_map_positions,
+        map_positions=d.flux_map_positions or averaging_positions(spec),
         rib_safety_factor=d.rib_safety_factor,
     )
     values.update({k: v for k, v in overrides.items() if v is not None})
@@ -80,7 +90,11 @@ def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:
 
 @dataclass(frozen=True, eq=False)
 class EnvelopeResult:
-    """Everything an envelope study found; ``summary`` holds the key figures (JSON-able)."""
+    """Everything an envelope study found; ``summary`` holds the key figures (JSON-able).
+
+    ``operating``: the engine's points (:class:`OperatingPoints`) that the summary reports
+    for the rated current and the current limit; the flux maps add the points between.
+    """
 
     spec: MachineSpec
     settings: EnvelopeSettings
@@ -91,31 +105,58 @@ class EnvelopeResult:
     iron_loss: IronLoss | None
     rated_point: dict
     ribs: RibStress
+    operating: OperatingPoints
     summary: dict
     timings_s: dict = field(default_factory=dict)
 
 
-def _rated_point(spec, fmap, res, iron, gamma) -> dict:
-    from .interp import FluxInterpolator
+def operating_points(model, currents: list[float], workers: int = 1,
+                     progress: Callable[[str], None] | None = None) -> OperatingPoints:
+    """The rated point and the MTPA at ``currents`` (peak A) by the operating-point engine.
 
-    current, speed = spec.operating.current_peak_A, spec.operating.speed_rpm
-    torque = float(FluxInterpolator(fmap).torque(current * math.cos(gamma),
-                                                 current * math.sin(gamma)))
-    power = torque * speed * 2 * math.pi / 60
-    cu = copper_loss(res.resistance_Ohm, current)
+    The same studies as :func:`fluxlab.evaluate.evaluate` (current-angle grid and bounded
+    MTPA search, :func:`fluxlab.studies.torque_vs_current_angle`), run in ``workers``.
+    """
+    from ..studies import ANGLE_STEP_DEG, torque_vs_current_angle
+    from ..study_pool import run_tasks
+
+    op = model.spec.operating
+    rated_angle = [] if op.current_angle is None else [math.degrees(op.current_angle)]
+    currents = sorted({op.current_peak_A, *currents})
+    tasks = [(f"MTPA at {c:g} A", torque_vs_current_angle,
+              (c, ANGLE_STEP_DEG, None, None, rated_angle if c == op.current_peak_A else []))
+             for c in currents]
+    done = run_tasks(model, tasks, workers, progress)
+    studies = {c: done[name] for c, (name, _, _) in zip(currents, tasks)}
+    rated_study = studies[op.current_peak_A]
+    rated = (rated_study.mtpa if op.current_angle is None
+             else rated_study.at(math.degrees(op.current_angle)))
+    return OperatingPoints(rated, {c: s.mtpa for c, s in studies.items()})
+
+
+def _rated_point(spec, rated: AveragedPoint, res, iron) -> dict:
+    speed = spec.operating.speed_rpm
+    power = rated.torque_Nm * speed * 2 * math.pi / 60
+    cu = copper_loss(res.resistance_Ohm, rated.current_peak_A)
     fe = iron.total_W if iron is not None else math.nan
-    return {"current_peak_A": current, "current_angle_deg": math.degrees(gamma),
-            "speed_rpm": speed, "torque_Nm": torque, "power_W": power, "copper_loss_W": cu,
-            "iron_loss_W": fe, "efficiency": efficiency(power, cu, fe)}
+    return {"current_peak_A": rated.current_peak_A, "current_angle_deg": rated.current_angle_deg,
+            "speed_rpm": speed, "torque_Nm": rated.torque_Nm, "power_W": power,
+            "copper_loss_W": cu, "iron_loss_W": fe, "efficiency": efficiency(power, cu, fe),
+            "power_factor": rated.power_factor}
 
 
 def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, *,
                    model=None, workers: int = 1,
-                   progress: Callable[[str], None] | None = None) -> EnvelopeResult:
+                   progress: Callable[[str], None] | None = None,
+                   operating: OperatingPoints | None = None) -> EnvelopeResult:
     """Run the envelope study of ``spec`` (FEM flux map and iron-loss sweep in ``workers``).
 
-    Iron loss is computed at the rated current on its MTPA angle (from the maps) at the
-    rated speed; it is skipped, with a warning, when a steel has no loss coefficients.
+    The rated point and the MTPA at the rated current and the current limit come from the
+    operating-point engine (``operating``, as an evaluation found them, or solved here), so
+    they equal :func:`fluxlab.evaluate.evaluate`'s; the flux maps, averaged over the same
+    rotor positions, add the trajectory and the torque-speed envelope between them. Iron
+    loss is computed at the rated point at the rated speed; it is skipped, with a warning,
+    when a steel has no loss coefficients.
     """
     from ..model import build_model
 
@@ -124,36 +165,39 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
     start = time.perf_counter()
     model = model or build_model(spec)
     timings = {"model": time.perf_counter() - start}
+    if operating is None or settings.current_limit_A not in operating.mtpa:
+        say("rated point and MTPA")
+        operating = operating_points(model, [settings.current_limit_A], workers, say)
+    timings["operating_points"] = time.perf_counter() - start - sum(timings.values())
     grid = current_grid(settings.map_max_current_A, settings.map_points)
     say(f"flux map {grid.size} x {grid.size}")
     fmap = flux_map(model, grid, grid, settings.map_positions, workers, say)
     timings["flux_map"] = time.perf_counter() - start - sum(timings.values())
-    mtpa = mtpa_trajectory(fmap, np.linspace(0, settings.current_limit_A, 21))
+    mtpa = with_engine_points(mtpa_trajectory(fmap, np.linspace(0, settings.current_limit_A,
+                                                                21)), operating.mtpa)
     res = phase_resistance(spec)
     speeds = np.linspace(0.0, settings.max_speed_rpm, settings.speed_points)
     env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_A,
                                 settings.voltage_limit_V, speeds)
-    from .interp import FluxInterpolator
-
-    gamma = mtpa_point(FluxInterpolator(fmap), spec.operating.current_peak_A)
+    rated = operating.rated
     iron = None
     if settings.loss_samples:
         try:
             say("iron loss position sweep")
-            iron = iron_loss_estimate(model, spec.operating.current_peak_A, gamma,
+            iron = iron_loss_estimate(model, rated.current_peak_A, rated.current_angle,
                                       spec.operating.speed_rpm, settings.loss_samples,
                                       workers, say)
         except MaterialError as err:
             log.warning("iron loss skipped: %s", err)
     timings["iron_loss"] = time.perf_counter() - start - sum(timings.values())
     ribs = rib_stress(spec, settings.max_speed_rpm, settings.rib_safety_factor)
-    rated = _rated_point(spec, fmap, res, iron, gamma)
-    summary = _summary(settings, env, res, rated, ribs, fmap)
-    return EnvelopeResult(spec, settings, fmap, mtpa, res, env, iron, rated, ribs, summary,
-                          timings)
+    rated_point = _rated_point(spec, rated, res, iron)
+    summary = _summary(settings, env, res, rated_point, ribs, fmap, operating)
+    return EnvelopeResult(spec, settings, fmap, mtpa, res, env, iron, rated_point, ribs,
+                          operating, summary, timings)
 
 
-def _summary(settings, env, res, rated, ribs, fmap) -> dict:
+def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) -> dict:
     worst = max(ribs.barriers, key=lambda b: b.stress_Pa, default=None)
     return {
         "current_limit_peak_A": settings.current_limit_A,
@@ -169,6 +213,10 @@ def _summary(settings, env, res, rated, ribs, fmap) -> dict:
         "copper_temperature_C": res.temperature_C,
         "end_winding_length_m": res.end_winding_length_m,
         "rated": rated,
+        "mtpa": [{"current_peak_A": c, "current_angle_deg": pt.current_angle_deg,
+                  "torque_Nm": pt.torque_Nm} for c, pt in sorted(operating.mtpa.items())],
+        "operating_points": "rated and MTPA points: the operating-point engine (as evaluate); "
+                            "the flux maps give the trajectory and the envelope between them",
         "flux_map_points": int(fmap.i_d_A.size),
         "flux_map_positions": fmap.positions,
         "rib_speed_rpm": ribs.speed_rpm,

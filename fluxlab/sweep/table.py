@@ -2,7 +2,7 @@
 
 A row holds the candidate number, its varied keys (file units, named by their paths), its
 status (done, rejected, failed, or pending when a run was stopped before it), the scalar
-results of its summary (units in the names: ``torque_mean_Nm``, ``Ld_H``), the message and
+results of its summary (units in the names: ``torque_mean_Nm``, ``Ld_apparent_H``), the message and
 the content key.
 """
 
@@ -18,7 +18,8 @@ from .store import StoredResult
 __all__ = ["RESULT_COLUMNS", "results_table", "result_columns", "write_results_csv"]
 
 # Key results first, in this order; other scalar summary entries follow, sorted.
-RESULT_COLUMNS = ("torque_mean_Nm", "torque_ripple_pct", "saliency_ratio", "Ld_H", "Lq_H",
+RESULT_COLUMNS = ("torque_mean_Nm", "torque_ripple_pct", "saliency_apparent", "Ld_apparent_H",
+                  "Lq_apparent_H",
                   "power_factor", "mtpa_angle_deg", "current_peak_A", "current_angle_deg",
                   "nodes")
 _SKIP = ("fluxlab_version",)

@@ -27,6 +27,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dq import dq_torque
 from ..errors import ConvergenceError
 
 __all__ = ["FAIL_SPEED_RPM", "CRASH_SPEED_RPM", "FakeCurve", "FakeEvaluation", "fake_evaluate",
@@ -79,11 +80,12 @@ def fake_summary(spec, studies: str) -> dict:
     current = spec.operating.current_peak_A
     gamma = spec.operating.current_angle or math.radians(45.0)
     i_d, i_q = current * math.cos(gamma), current * math.sin(gamma)
-    torque = 1.5 * spec.pole_pairs * (ld - lq) * i_d * i_q
+    torque = dq_torque(spec.pole_pairs, ld * i_d, lq * i_q, i_d, i_q)
     phi = math.atan2(lq * i_q, ld * i_d) + math.pi / 2 - gamma  # voltage leads flux by 90 deg
     slot_pitch_deg = 360.0 / spec.stator.slots
     summary = {
-        "Ld_H": ld, "Lq_H": lq, "saliency_ratio": saliency, "torque_mean_Nm": torque,
+        "Ld_apparent_H": ld, "Lq_apparent_H": lq, "saliency_apparent": saliency,
+        "torque_mean_Nm": torque,
         "torque_ripple_pct": None, "mtpa_angle_deg": None, "power_factor": math.cos(phi),
         "current_peak_A": current, "current_angle_deg": math.degrees(gamma),
         "nodes": int(20000 * (3e-3 / spec.mesh.size) ** 2), "fluxlab_version": __version__,
