@@ -1,7 +1,7 @@
 """Time per warm-started rotor position against mesh size on the demo machine.
 
 Three meshes of about 5k, 20k and 80k nodes (``mesh.size_mm``, ``mesh.airgap_layers``
-and ``mesh.rib_size_mm`` changed with ``spec.replace_path``); at each, the median time of
+and ``mesh.rib_size_mm`` changed with ``replace_path``); at each, the median time of
 consecutive ripple-study positions, each started from the previous one and solved to the
 studies' Newton tolerance (``MachineModel.newton_rtol``).  Prints the
 fitted exponent of time against node count, overall and between the two finest meshes;
@@ -25,7 +25,7 @@ import numpy as np  # noqa: E402
 from fluxlab import linsolve  # noqa: E402
 from fluxlab.model import build_model, current_density, phase_currents  # noqa: E402
 from fluxlab.solver import linear_backend, solve_field  # noqa: E402
-from fluxlab.spec import load_machine  # noqa: E402
+from fluxlab.spec import load_machine, replace_path  # noqa: E402
 from fluxlab.studies import ripple_steps  # noqa: E402
 
 DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
@@ -67,15 +67,15 @@ def main(argv=None) -> None:
     print(f"load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores")
     nodes, seconds = [], []
     for size, layers, rib in MESHES:
-        spec = base.replace_path("mesh.size_mm", size).replace_path("mesh.airgap_layers", layers)
+        spec = replace_path(replace_path(base, "mesh.size_mm", size), "mesh.airgap_layers", layers)
         if rib is not None:
-            spec = spec.replace_path("mesh.rib_size_mm", rib)
+            spec = replace_path(spec, "mesh.rib_size_mm", rib)
         n, t, its = time_per_position(spec, args.linear_solver, args.positions)
         nodes.append(n)
         seconds.append(t)
         print(f"size_mm {size}, airgap_layers {layers}, rib_size_mm {rib}: {n} nodes, "
               f"{1e3 * t:.0f} ms per position, {its:.1f} Newton iterations", flush=True)
-    probe = build_model(base.replace_path("mesh.size_mm", 8.0)).problem
+    probe = build_model(replace_path(base, "mesh.size_mm", 8.0)).problem
     print(f"linear solver: {linear_backend(probe, args.linear_solver).describe()}")
     slope_all = np.polyfit(np.log(nodes), np.log(seconds), 1)[0]
     slope_fine = math.log(seconds[2] / seconds[1]) / math.log(nodes[2] / nodes[1])

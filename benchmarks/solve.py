@@ -18,7 +18,7 @@ a numeric refactorisation alone is printed as well: it is about 1.4 times the Ne
 steps a warm position needs.
 
     OPENBLAS_NUM_THREADS=1 python benchmarks/solve.py [--linear-solver auto|scipy|pardiso]
-        [--reuse 0.1] [--start plain|rotated] [--positions 9]
+        [--positions 9]
 
 Wall times on a shared machine vary by 10-30 %; the load average is printed.
 """
@@ -43,7 +43,6 @@ from fluxlab.model import build_model, current_density, phase_currents  # noqa: 
 from fluxlab.solver import _prepared, linear_backend, solve_field  # noqa: E402
 from fluxlab.spec import load_machine  # noqa: E402
 from fluxlab.studies import ripple_steps  # noqa: E402
-from fluxlab.warmstart import rotated_initial  # noqa: E402
 
 DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 
@@ -72,9 +71,6 @@ def versions() -> str:
 def main(argv=None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--linear-solver", default="auto", choices=linsolve.BACKENDS)
-    parser.add_argument("--reuse", type=float, default=None,
-                        help="factorisation reuse threshold (default: the solver's)")
-    parser.add_argument("--start", default="plain", choices=("plain", "rotated"))
     parser.add_argument("--positions", type=int, default=9)
     args = parser.parse_args(argv)
     print(versions())
@@ -89,8 +85,6 @@ def main(argv=None) -> None:
     backend = linear_backend(problem, args.linear_solver)
     print(f"linear solver: {backend.describe()}")
     kw = {"linear_solver": args.linear_solver, "rtol": model.newton_rtol}  # as the studies
-    if args.reuse is not None:
-        kw["reuse"] = args.reuse
     p = spec.pole_pairs
     angle = spec.operating.current_angle or math.pi / 4
 
@@ -102,8 +96,7 @@ def main(argv=None) -> None:
     steps = [int(s) for s in ripple_steps(model)[: args.positions + 1]]
     t = time.perf_counter()
     previous = solve_field(problem, current(steps[0]), steps[0], **kw)
-    print(f"cold solve: {time.perf_counter() - t:.3f} s, {previous.iterations} iterations, "
-          f"{previous.factorizations} factorisations")
+    print(f"cold solve: {time.perf_counter() - t:.3f} s, {previous.iterations} iterations")
     # one assembly and one factorisation at the saturated field of the cold solve
     data = problem.data
     state = assembly.evaluate(data, problem.materials, previous.a)
@@ -122,21 +115,18 @@ def main(argv=None) -> None:
     print(f"factorisation and solve of a new pattern (ordering, analysis, numeric, solve): "
           f"{1e3 * t_first:.1f} ms; numeric refactorisation and solve of an analysed "
           f"pattern: {1e3 * t_fact:.1f} ms")
-    times, iterations, factorisations, first_residuals = [], [], [], []
-    for a, b in zip(steps[:-1], steps[1:], strict=True):
+    times, iterations, first_residuals = [], [], []
+    for step in steps[1:]:
         t = time.perf_counter()
-        start = previous.a if args.start == "plain" else rotated_initial(problem, previous.a, a, b)
-        previous = solve_field(problem, current(b), b, initial=start, **kw)
+        previous = solve_field(problem, current(step), step, initial=previous.a, **kw)
         times.append(time.perf_counter() - t)
         iterations.append(previous.iterations)
-        factorisations.append(previous.factorizations)
         first_residuals.append(previous.history[0])
     t_pos = float(np.median(times))
-    print(f"warm-started position ({args.start} start, steps {steps[1] - steps[0]} apart, "
-          f"{len(times)} positions): median {1e3 * t_pos:.0f} ms, min {1e3 * min(times):.0f}, "
-          f"max {1e3 * max(times):.0f}; iterations {np.mean(iterations):.1f}, "
-          f"factorisations {np.mean(factorisations):.1f}, first relative residual "
-          f"{np.median(first_residuals):.3g}")
+    print(f"warm-started position (steps {steps[1] - steps[0]} apart, {len(times)} "
+          f"positions): median {1e3 * t_pos:.0f} ms, min {1e3 * min(times):.0f}, "
+          f"max {1e3 * max(times):.0f}; iterations {np.mean(iterations):.1f}, first "
+          f"relative residual {np.median(first_residuals):.3g}")
     print(f"ratio against one assembly and a numeric refactorisation alone: "
           f"{t_pos / (t_asm + t_fact):.2f}")
     print(f"limit ratio: {t_pos / (t_asm + t_first):.2f}")

@@ -7,14 +7,7 @@ The names a script needs::
     result = evaluate(spec)                  # all studies, no files
 """
 
-from importlib.metadata import PackageNotFoundError, version
-
-try:
-    __version__ = version("fluxlab")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0.0.0+unknown"
-
-from .errors import (  # noqa: E402
+from .errors import (
     ConvergenceError,
     FluxlabError,
     GeometryError,
@@ -23,23 +16,25 @@ from .errors import (  # noqa: E402
     SpecError,
     WindingError,
 )
-from .evaluate import Evaluation, StudySettings, evaluate  # noqa: E402
-from .mesh import build_mesh  # noqa: E402
-from .model import build_model  # noqa: E402
-from .operating_point import averaged_point, solve_point  # noqa: E402
-from .solver import solve_field  # noqa: E402
-from .spec import load_machine, machine_from_dict  # noqa: E402
-from .studies import (  # noqa: E402
+from .evaluate import Evaluation, StudySettings, evaluate
+from .mesh import build_mesh
+from .model import build_model
+from .operating_point import averaged_point, solve_point
+from .solver import solve_field
+from .spec import load_machine, machine_from_dict, replace_path
+from .studies import (
     inductance_curves,
     torque_vs_current_angle,
     torque_vs_position,
 )
-from .sweep import run_sweep  # noqa: E402
+from .sweep import run_sweep
+from .version import __version__
 
 __all__ = [
     "__version__",
     "load_machine",
     "machine_from_dict",
+    "replace_path",
     "build_mesh",
     "build_model",
     "solve_field",

@@ -27,7 +27,6 @@ from scipy import sparse
 from skfem import Basis, ElementTriP1, ElementTriP2, MeshTri
 
 from . import materials as _materials
-from .errors import MaterialError, SpecError
 
 __all__ = [
     "SparsityPattern",
@@ -161,7 +160,7 @@ def make_basis(mesh: MeshTri, order: int) -> Basis:
         return Basis(mesh, ElementTriP1(), quadrature=_P1_RULE)
     if order == 2:
         return Basis(mesh, ElementTriP2(), intorder=_P2_INTORDER)
-    raise SpecError(f"order: {order!r} is not supported; use 1 (P1) or 2 (P2)")
+    raise ValueError(f"order: {order!r} is not supported; use 1 (P1) or 2 (P2)")
 
 
 def _pattern(dofs: np.ndarray, n_dofs: int) -> SparsityPattern:
@@ -191,20 +190,22 @@ def element_data(basis: Basis, element_material: np.ndarray, n_materials: int) -
 
     Raises
     ------
-    MaterialError
-        When ``element_material`` has the wrong length, is not integer or is out of range.
+    ValueError
+        When ``element_material`` has the wrong length or is out of range.
+    TypeError
+        When ``element_material`` is not of an integer dtype.
     """
     n_el = basis.nelems
     em = np.asarray(element_material)
     if em.shape != (n_el,):
-        raise MaterialError(
+        raise ValueError(
             f"element_material: shape {em.shape} does not match the mesh's {n_el} elements"
         )
     if em.size and not np.issubdtype(em.dtype, np.integer):
-        raise MaterialError(f"element_material: dtype {em.dtype} is not an integer type")
+        raise TypeError(f"element_material: dtype {em.dtype} is not an integer type")
     if em.size and (em.min() < 0 or em.max() >= n_materials):
         bad = em[(em < 0) | (em >= n_materials)][0]
-        raise MaterialError(
+        raise ValueError(
             f"element_material: index {int(bad)} is out of range 0..{n_materials - 1} "
             f"({n_materials} materials given)"
         )
@@ -295,7 +296,7 @@ def source_at_quadrature(data: ElementData, current_density: np.ndarray) -> np.n
 
     Raises
     ------
-    SpecError
+    ValueError
         On a wrong shape or a value that is not finite.
     """
     j = np.asarray(current_density, dtype=float)
@@ -303,13 +304,13 @@ def source_at_quadrature(data: ElementData, current_density: np.ndarray) -> np.n
     if j.shape == (n_el,):
         j = np.broadcast_to(j[:, None], (n_el, n_qp))
     elif j.shape != (n_el, n_qp):
-        raise SpecError(
+        raise ValueError(
             f"current_density: shape {j.shape} does not match ({n_el},) elements or "
             f"({n_el}, {n_qp}) quadrature points"
         )
     if not np.all(np.isfinite(j)):
         bad = int(np.flatnonzero(~np.isfinite(j).all(axis=1))[0])
-        raise SpecError(f"current_density: element {bad} is not finite ({j[bad].tolist()})")
+        raise ValueError(f"current_density: element {bad} is not finite ({j[bad].tolist()})")
     return j
 
 

@@ -2,6 +2,12 @@
 
 Every error a user can cause derives from :class:`FluxlabError`, so a script can catch
 them all at once; each subclass names the pipeline stage that found the problem.
+
+:class:`SpecError` and its subclasses mean "this machine or sweep file is invalid": a value
+a user wrote, named with its key, the value and the limit. A sweep stores such a candidate
+as rejected and never retries it. A wrong call from Python code (an argument of the wrong
+type or value, a bad array shape) is a plain :class:`TypeError` or :class:`ValueError`
+naming the argument and the value, never one of these classes.
 """
 
 __all__ = [
@@ -35,11 +41,15 @@ class GeometryError(SpecError):
 
 
 class MeshError(FluxlabError):
-    """gmsh failed or produced a mesh that fails fluxlab's checks."""
+    """gmsh failed, or a mesh (or the ties built on its boundaries) fails fluxlab's checks."""
 
 
 class MaterialError(FluxlabError, ValueError):
-    """A material name, B-H curve or material file is invalid."""
+    """A material name, B-H curve or material file is invalid, or a material lacks data.
+
+    Not a :class:`SpecError`: material data need not come from a machine file. Reading a
+    machine file turns it into one of the file's :class:`SpecError` problems.
+    """
 
 
 class WindingError(SpecError):

@@ -16,13 +16,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import __version__
 from .averaging import averaging_positions, periods_per_revolution, residual_orders, torque_period
 from .mesh import build_mesh
 from .model import MachineModel, build_model
 from .operating_point import AveragedPoint, OperatingPoints, PointResult, averaged_points
 from .solver import linear_backend
-from .spec import MachineSpec
+from .spec_types import MachineSpec
 from .studies import (
     ANGLE_STEP_DEG,
     InductanceCurves,
@@ -35,6 +34,7 @@ from .studies import (
     solve_positions,
     torque_vs_current_angle,
 )
+from .version import __version__
 
 __all__ = ["StudySettings", "Evaluation", "evaluate", "averaging_note", "CONVENTIONS"]
 

@@ -17,7 +17,7 @@ from .geometry.rotor import barrier_placement, opening_angles
 from .geometry.stator import slot_shapes
 from .model import MachineModel
 from .solver import FieldSolution
-from .spec import MachineSpec
+from .spec_types import MachineSpec
 
 __all__ = ["weighted_percentile", "slot_bottom_radius", "region_elements",
            "region_flux_densities"]

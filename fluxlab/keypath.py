@@ -10,6 +10,7 @@ from __future__ import annotations
 import re
 from typing import Any
 
+from . import schema
 from .errors import SpecError
 
 __all__ = ["parse_path", "path_prefix", "key_kind", "get_path", "set_path"]
@@ -46,16 +47,14 @@ def parse_path(path: str) -> list[str | int]:
 def _schema() -> dict[str, tuple]:
     # The key tables of the machine file, to know a key's type even when the base file
     # leaves it at its default (rotor.barriers[0].post_mm, for instance).
-    from . import spec as s
-
     return {
-        "machine": s.MACHINE_KEYS,
-        "stator": s.STATOR_KEYS,
-        "winding": s.WINDING_KEYS,
-        "rotor": s.ROTOR_KEYS,
-        "rotor.barriers": s.BARRIER_KEYS,
-        "mesh": s.MESH_KEYS,
-        "operating": s.OPERATING_KEYS,
+        "machine": schema.MACHINE_KEYS,
+        "stator": schema.STATOR_KEYS,
+        "winding": schema.WINDING_KEYS,
+        "rotor": schema.ROTOR_KEYS,
+        "rotor.barriers": schema.BARRIER_KEYS,
+        "mesh": schema.MESH_KEYS,
+        "operating": schema.OPERATING_KEYS,
     }
 
 

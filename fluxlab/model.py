@@ -15,7 +15,7 @@ import numpy as np
 from .geometry import slot_region_name, slots_in_sector
 from .mesh import MachineMesh, build_mesh
 from .solver import FieldProblem, element_areas, make_problem
-from .spec import MachineSpec
+from .spec_types import MachineSpec
 from .winding import WindingLayout, phase_axis_angle, winding_layout
 
 __all__ = [
@@ -171,10 +171,8 @@ def coil_side_current_density(model: MachineModel, densities: dict[str, float]) 
     """Current density per element (A/m^2) from densities given per coil-side region.
 
     For studies with a hand-made excitation; every region named must carry a winding (a
-    ``slot_<k>_layer_<l>`` region), otherwise a SpecError names it.
+    ``slot_<k>_layer_<l>`` region), otherwise a ValueError names it (a wrong argument).
     """
-    from .errors import SpecError
-
     regions = model.mesh.regions
     coil_sides = {n for n in regions if n.startswith("slot_") and "_layer_" in n}
     problems = [
@@ -183,7 +181,7 @@ def coil_side_current_density(model: MachineModel, densities: dict[str, float]) 
         for name, value in densities.items() if name not in coil_sides
     ]
     if problems:
-        raise SpecError(problems)
+        raise ValueError("; ".join(problems))
     j = np.zeros(model.mesh.mesh.t.shape[1])
     for name, value in densities.items():
         j[regions[name]] = value

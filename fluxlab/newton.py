@@ -13,17 +13,8 @@ and the residual is its gradient, so a Newton step is a descent direction).  Nea
 solution the predicted decrease of Pi falls below the round-off of Pi itself; there the
 step is accepted when the residual norm decreases instead.
 
-Factorisation reuse (chord steps): a factorisation is kept for the next step while the
-step it produced was taken in full and cut the residual norm by at least the factor
-``reuse``; otherwise the Jacobian is assembled and factorised anew.  Any
-SPD matrix gives a descent direction of the convex Pi, so a chord step is safe for the
-line search; near the solution it contracts about as fast as the Jacobian changes
-(Kelley, Iterative Methods for Linear and Nonlinear Equations, SIAM 1995, ch. 5.4, from
-memory), and a slow one triggers a new factorisation.  A line search that fails on a
-reused factorisation is retried once with a fresh one.  ``reuse = 0`` (the default) is
-plain Newton: on the demo machine chord steps doubled the iterations and saved only
-a few factorisations, no net gain with either backend (benchmarks/solve.py --reuse).
-The convergence test and the line search are the same either way.
+Every step assembles and factorises the Jacobian anew (keeping a factorisation for
+several steps doubled the steps on the demo machine for no net gain, DEVELOPERS.md).
 """
 
 from __future__ import annotations
@@ -33,46 +24,20 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import sparse
-from scipy.sparse.linalg import splu
 
 from . import assembly
 from .errors import ConvergenceError, SpecError
 from .linsolve import LinearSolver
 from .tiemap import ReducedPattern, TieMap
 
-__all__ = ["LinearSolver", "NewtonResult", "splu_symmetric", "newton_solve"]
+__all__ = ["LinearSolver", "NewtonResult", "newton_solve"]
 
 logger = logging.getLogger(__name__)
-
-#: Default contraction a reused factorisation must keep: 0, plain Newton (see above).
-REUSE = 0.0
 
 _ARMIJO = 1e-4  # sufficient-decrease constant (Nocedal & Wright, Numerical Optimization, ch. 3)
 _MAX_HALVINGS = 30
 #: Relative round-off level below which a change of Pi is not trusted.
 _ENERGY_ROUNDOFF = 1e-11
-
-
-def splu_symmetric(matrix: sparse.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
-    """SuperLU with symmetric ordering and no pivoting (SPD matrices).
-
-    A symmetric CSR matrix read as CSC is itself, so no conversion is needed.
-    """
-    csc = sparse.csc_matrix((matrix.data, matrix.indices, matrix.indptr), shape=matrix.shape)
-    try:
-        lu = splu(
-            csc,
-            permc_spec="MMD_AT_PLUS_A",
-            diag_pivot_thresh=0.0,
-            options=dict(SymmetricMode=True),
-        )
-    except RuntimeError as exc:  # SuperLU reports a zero pivot this way
-        raise ConvergenceError(
-            f"linear solve: the Jacobian is singular ({exc}); is the potential fixed "
-            "anywhere (an 'outer' boundary, anti-periodic edges or a fixed dof)?"
-        ) from exc
-    return lu.solve
 
 
 @dataclass(frozen=True, eq=False)
@@ -89,16 +54,12 @@ class NewtonResult:
         Relative residual before the first and after every iteration.
     iterations
         Newton steps taken.
-    factorizations
-        Jacobians assembled and factorised (at most ``iterations`` plus line-search
-        retries; fewer when factorisations were reused).
     """
 
     a: np.ndarray
     state: assembly.FieldState
     history: tuple[float, ...]
     iterations: int
-    factorizations: int = 0
 
 
 @dataclass(frozen=True, eq=False)
@@ -133,16 +94,14 @@ def _reference(data, materials, tie: TieMap, load: np.ndarray) -> float:
     return float(np.linalg.norm(_point(data, materials, tie, load, zero).r))
 
 
-def _line_search(
-    data, materials, tie, load, start: _Point, step: np.ndarray
-) -> tuple[_Point, float]:
-    """The accepted point and its step length."""
+def _line_search(data, materials, tie, load, start: _Point, step: np.ndarray) -> _Point:
+    """The accepted point."""
     slope = float(start.r @ step)
     t = 1.0
     for _ in range(_MAX_HALVINGS):
         trial = _point(data, materials, tie, load, start.a_red + t * step)
         if _accept(trial, start, t, slope):
-            return trial, t
+            return trial
         t *= 0.5
     raise ConvergenceError(f"line search: no acceptable step after {_MAX_HALVINGS} halvings")
 
@@ -158,8 +117,7 @@ def newton_solve(
     rtol: float = 1e-8,
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
-    linear_solver: LinearSolver = splu_symmetric,
-    reuse: float = REUSE,
+    linear_solver: LinearSolver,
 ) -> NewtonResult:
     """Solve ``P^T r(P a_red + c) = 0`` by damped Newton.
 
@@ -184,9 +142,6 @@ def newton_solve(
     linear_solver
         Factorisation of the reduced Jacobian, see :data:`LinearSolver` and
         :mod:`fluxlab.linsolve`.
-    reuse
-        Keep a factorisation while each step it gives is taken in full and cuts the
-        residual norm by at least this factor; 0 refactorises every step (plain Newton).
 
     Raises
     ------
@@ -196,8 +151,6 @@ def newton_solve(
     """
     if not (0.0 < rtol < 1.0):
         raise SpecError(f"rtol: {rtol!r} must be in (0, 1)")
-    if not (0.0 <= reuse < 1.0):
-        raise SpecError(f"reuse: {reuse!r} must be in [0, 1)")
     a_red = np.zeros(tie.n_reduced)
     if initial is not None:
         initial = np.asarray(initial, dtype=float)
@@ -214,8 +167,7 @@ def newton_solve(
     history = [float(np.linalg.norm(point.r)) / reference]
     if callback is not None:
         callback(0, history[-1])
-    iterations = factorizations = 0
-    solve = None  # the kept factorisation, if any
+    iterations = 0
     while history[-1] > rtol:
         if iterations >= max_iter:
             raise ConvergenceError(
@@ -224,29 +176,13 @@ def newton_solve(
                 history,
             )
         try:
-            while True:
-                fresh = solve is None
-                if fresh:
-                    matrix = pattern.matrix(assembly.jacobian_values(data, point.state))
-                    solve = linear_solver(matrix)
-                    factorizations += 1
-                try:
-                    trial, t = _line_search(data, materials, tie, load, point, -solve(point.r))
-                    break
-                except ConvergenceError:
-                    if fresh:
-                        raise
-                    solve = None  # a stale factorisation failed: retry with a fresh one
+            solve = linear_solver(pattern.matrix(assembly.jacobian_values(data, point.state)))
+            point = _line_search(data, materials, tie, load, point, -solve(point.r))
         except ConvergenceError as exc:
             raise ConvergenceError(f"newton step {iterations + 1}: {exc}", history) from exc
-        ratio = float(np.linalg.norm(trial.r)) / max(float(np.linalg.norm(point.r)), 1e-300)
-        if t < 1.0 or ratio > reuse:
-            solve = None
-        point = trial
         iterations += 1
         history.append(float(np.linalg.norm(point.r)) / reference)
-        logger.debug("newton %d: relative residual %.3e%s", iterations, history[-1],
-                     "" if fresh else " (reused factorisation)")
+        logger.debug("newton %d: relative residual %.3e", iterations, history[-1])
         if callback is not None:
             callback(iterations, history[-1])
-    return NewtonResult(point.state.a, point.state, tuple(history), iterations, factorizations)
+    return NewtonResult(point.state.a, point.state, tuple(history), iterations)

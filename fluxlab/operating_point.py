@@ -18,6 +18,7 @@ Currents are peak phase amperes; gamma is measured from the d-axis (gamma = 0: p
 
 from __future__ import annotations
 
+import logging
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -29,6 +30,8 @@ from .dq import dq_torque, power_factor
 from .model import MachineModel, current_density, phase_currents
 from .post import flux_linkage_abc, machine_energy, park, torque_maxwell
 from .solver import FieldSolution, solve_field
+
+log = logging.getLogger(__name__)
 
 __all__ = [
     "PointResult",
@@ -217,27 +220,33 @@ def mtpa_search(model, current_peak: float, known: Sequence[AveragedPoint],
             new.append(seen[gamma])
         return -seen[gamma].torque_Nm
 
-    lo, mid, hi = _bracket(seen, negative_torque)
-    # Brent's xtol is relative to the angle: at most pi/2 rad, so this keeps the error
-    # (twice the final tolerance) within tolerance_deg
-    minimize_scalar(negative_torque, bracket=(lo, mid, hi), method="brent",
-                    options={"xtol": math.radians(tolerance_deg) / math.pi})
+    bracket = _bracket(seen, negative_torque, math.radians(tolerance_deg))
+    if bracket is None:
+        log.warning("torque at %g A peaks at the edge of 0-90 deg of current angle (no "
+                    "saliency?): the MTPA is that edge point", current_peak)
+    else:
+        # Brent's xtol is relative to the angle: at most pi/2 rad, so this keeps the error
+        # (twice the final tolerance) within tolerance_deg
+        minimize_scalar(negative_torque, bracket=bracket, method="brent",
+                        options={"xtol": math.radians(tolerance_deg) / math.pi})
     best = max(seen.values(), key=lambda pt: pt.torque_Nm)
     return MTPAResult(best, tuple(new), tolerance_deg, len(new) * len(steps))
 
 
-def _bracket(seen: dict[float, AveragedPoint], negative_torque) -> tuple[float, float, float]:
-    """Angles lo < mid < hi (rad) with the torque at mid above both ends."""
+def _bracket(seen: dict[float, AveragedPoint], negative_torque, tolerance: float
+             ) -> tuple[float, float, float] | None:
+    """Angles lo < mid < hi (rad) with the torque at mid above both ends, or None when the
+    torque keeps rising to 0 or 90 deg (a machine without saliency: no interior maximum)
+    closer than ``tolerance`` (rad) to the edge."""
     while True:
         angles = sorted(seen)
         k = max(range(len(angles)), key=lambda i: seen[angles[i]].torque_Nm)
         if 0 < k < len(angles) - 1:
             return angles[k - 1], angles[k], angles[k + 1]
-        edge = 0.0 if k == 0 else math.pi / 2  # no torque at pure i_d or i_q: bisect to it
+        edge = 0.0 if k == 0 else math.pi / 2  # bisect towards pure i_d or pure i_q
         step = (edge - angles[k]) / 2
-        if abs(step) < 1e-6:
-            raise ValueError(f"the torque rises up to {math.degrees(edge):g} deg: no maximum "
-                             "between 0 and 90 deg of current angle")
+        if abs(step) < tolerance:
+            return None
         negative_torque(angles[k] + step)
 
 

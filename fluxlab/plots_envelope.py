@@ -10,6 +10,8 @@ import math
 
 import numpy as np
 
+from .figures import caution_line
+
 __all__ = [
     "plot_flux_map_contours",
     "plot_cross_saturation",
@@ -204,7 +206,7 @@ def envelope_page_figure(result):
     import matplotlib.pyplot as plt
 
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86, bottom=0.12,
+    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86, bottom=0.15,
                             wspace=0.42, hspace=0.5, width_ratios=[1.1, 1.1, 1.0])
     fig.suptitle(f"Operating envelope: {result.spec.name}", fontsize=14, x=0.06, y=0.97,
                  ha="left")
@@ -228,10 +230,10 @@ def envelope_page_figure(result):
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
     warn = list(result.ribs.warnings)
-    text = ("WARNING: " + " ".join(warn) + "\n" if warn else "") + result.ribs.caution
-    fig.text(0.06, 0.03, "Caution: " + text + " Iron loss: harmonic loss-separation "
-             "estimate; efficiency without mechanical losses.", fontsize=7.5, wrap=True,
-             color="darkred" if warn else "black")
+    text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate; "
+                        "efficiency without mechanical losses.")
+    fig.text(0.06, 0.03, ("WARNING: " + " ".join(warn) + "\n" if warn else "") + text,
+             fontsize=7.5, wrap=True, va="bottom", color="darkred" if warn else "black")
     for a in fig.axes:
         a.title.set_fontsize(8.5)
         a.tick_params(labelsize=7)

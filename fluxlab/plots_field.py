@@ -7,7 +7,6 @@ review sheets and for comparing many candidates side by side.
 
 from __future__ import annotations
 
-import logging
 import math
 
 import numpy as np
@@ -17,7 +16,7 @@ from .mesh import MachineMesh
 from .model import MachineModel
 from .plots_mesh import region_colour
 from .solver import FieldSolution
-from .spec import MachineSpec
+from .spec_types import MachineSpec
 
 __all__ = [
     "outline_facets",
@@ -27,8 +26,6 @@ __all__ = [
     "outline_polygons",
     "plot_outline",
 ]
-
-log = logging.getLogger(__name__)
 
 _AIR_PREFIXES = ("airgap", "slot_opening")  # air regions drawn as one: no line between them
 _FIELD_CMAP = "viridis"  # perceptually uniform, readable in grey print

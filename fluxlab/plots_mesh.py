@@ -6,7 +6,7 @@ import numpy as np
 
 from .mesh import MachineMesh
 
-__all__ = ["region_colour", "plot_mesh", "rotated_points"]
+__all__ = ["region_colour", "plot_mesh"]
 
 _COLOURS = {
     "stator_iron": "#9aa5b1",
@@ -34,16 +34,6 @@ def _label(name: str) -> str | None:
     if name.startswith("slot_") or name.startswith("airgap"):
         return None
     return name.replace("_", " ")
-
-
-def rotated_points(machine: MachineMesh, rotor_angle: float) -> np.ndarray:
-    """Node coordinates (2, n) m with the rotor part turned by ``rotor_angle`` rad."""
-    p = machine.mesh.p.copy()
-    rotor_nodes = np.unique(machine.mesh.t[:, machine.rotor_element])
-    c, s = np.cos(rotor_angle), np.sin(rotor_angle)
-    x, y = p[0, rotor_nodes], p[1, rotor_nodes]
-    p[0, rotor_nodes], p[1, rotor_nodes] = c * x - s * y, s * x + c * y
-    return p
 
 
 def _draw_labels(ax, machine: MachineMesh, centroids: np.ndarray) -> None:

@@ -7,15 +7,9 @@ import math
 from pathlib import Path
 
 from .evaluate import Evaluation
+from .figures import caution_line
 
-__all__ = ["CAUTION", "key_figures", "write_review_sheet"]
-
-CAUTION = (
-    "Design estimate of a 2-D magnetostatic model: no end effects, no skew, no eddy currents, "
-    "no thermal or mechanical analysis. A machine built from these figures must be checked by "
-    "structural (rotor ribs at overspeed), thermal and electrical analysis and by test, under "
-    "the applicable standards and local codes, by qualified engineers."
-)
+__all__ = ["key_figures", "write_review_sheet"]
 
 
 def _fmt(value, digits=4) -> str:
@@ -135,7 +129,7 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         a.tick_params(labelsize=7)
         a.xaxis.label.set_fontsize(8)
         a.yaxis.label.set_fontsize(8)
-    fig.text(0.05, 0.03, "Caution: " + CAUTION, fontsize=7.5, wrap=True, va="bottom")
+    fig.text(0.05, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
     with PdfPages(path) as pdf:
         pdf.savefig(fig)
         plt.close(fig)

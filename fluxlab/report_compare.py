@@ -18,17 +18,14 @@ from pathlib import Path
 import numpy as np
 
 from .errors import FluxlabError
+from .figures import caution_line
 
-__all__ = ["PER_PAGE", "CAUTION", "FIGURE_ROWS", "CompareEntry", "load_evaluate_folder",
+__all__ = ["PER_PAGE", "FIGURE_ROWS", "CompareEntry", "load_evaluate_folder",
            "compare_figure", "write_compare_pdf"]
 
 log = logging.getLogger(__name__)
 
 PER_PAGE = 4
-CAUTION = ("Results are estimates of a 2-D magnetostatic model (no end effects, no mechanical "
-           "or thermal analysis). A machine built from them must be checked by structural and "
-           "thermal analysis and by test, under the applicable standards, by qualified "
-           "engineers.")
 # (summary key, table label, scale to the shown unit, format)
 FIGURE_ROWS = (
     ("torque_mean_Nm", "mean torque (N·m)", 1.0, "{:.2f}"),
@@ -188,7 +185,7 @@ def compare_figure(entries: Sequence[CompareEntry], title: str = "Candidate comp
     _curves(fig.add_subplot(grid[2, half:]), entries, "torque_vs_current_angle",
             "current angle from the d-axis (electrical deg)", "Torque against current angle")
     fig.suptitle(title, fontsize=12)
-    fig.text(0.5, 0.025, CAUTION, ha="center", va="bottom", fontsize=7, wrap=True,
+    fig.text(0.5, 0.025, caution_line(), ha="center", va="bottom", fontsize=7, wrap=True,
              style="italic")
     return fig
 

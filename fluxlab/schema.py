@@ -14,7 +14,23 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["Key", "read_section", "MM", "DEG"]
+__all__ = [
+    "Key",
+    "read_section",
+    "MM",
+    "DEG",
+    "MACHINE_KEYS",
+    "STATOR_KEYS",
+    "WINDING_KEYS",
+    "ROTOR_KEYS",
+    "BARRIER_KEYS",
+    "MESH_KEYS",
+    "OPERATING_KEYS",
+    "DRIVE_KEYS",
+    "MATERIAL_REGIONS",
+    "SECTIONS",
+    "MAX_BARRIERS",
+]
 
 MM = 1e-3  # m per mm
 DEG = math.pi / 180.0  # rad per degree
@@ -139,3 +155,74 @@ def read_section(
             value = value * key.scale if key.kind is float else value
         out[key.attr] = value
     return out
+
+
+# --- the machine file: one table of keys per section ---------------------------------
+
+MACHINE_KEYS = (
+    Key("name", str, default="unnamed machine"),
+    Key("poles", int, low=2, high=64),
+    Key("stack_length_mm", float, scale=MM, low=0, low_open=True, high=5000),
+)
+STATOR_KEYS = (
+    Key("slots", int, low=6, high=480),
+    Key("outer_diameter_mm", float, scale=MM, low=0, low_open=True),
+    Key("bore_diameter_mm", float, scale=MM, low=0, low_open=True),
+    Key("airgap_mm", float, scale=MM, low=0, low_open=True),
+    Key("slot_opening_mm", float, scale=MM, low=0, low_open=True),
+    Key("tip_height_mm", float, scale=MM, low=0, low_open=True),
+    Key("tooth_width_mm", float, default=None, scale=MM, low=0, low_open=True),
+    Key("slot_width_mm", float, default=None, scale=MM, low=0, low_open=True),
+    Key("slot_depth_mm", float, scale=MM, low=0, low_open=True),
+    Key("slot_bottom", str, default="round", choices=("round", "flat")),
+    Key("bottom_fillet_mm", float, default=0.0, scale=MM, low=0),
+)
+WINDING_KEYS = (
+    Key("layers", int, default=2, low=1, high=2),
+    Key("coil_pitch_slots", int, low=1),
+    Key("turns_per_coil", int, low=1),
+    Key("parallel_paths", int, default=1, low=1),
+    Key("fill_factor", float, default=0.45, low=0, low_open=True, high=0.8),
+)
+ROTOR_KEYS = (
+    Key("shaft_diameter_mm", float, scale=MM, low=0, low_open=True),
+    Key("barrier_shape", str, default="arc", choices=("arc", "u")),
+    Key("tangential_rib_mm", float, scale=MM, low=0, low_open=True),
+    Key("min_rib_mm", float, default=0.3, scale=MM, low=0, low_open=True),
+    Key("min_steel_mm", float, default=1.5, scale=MM, low=0, low_open=True),
+)
+BARRIER_KEYS = (
+    Key("depth_mm", float, scale=MM, low=0, low_open=True),
+    Key("end_angle_deg", float, scale=DEG, low=0, low_open=True, high=90),
+    Key("width_mm", float, scale=MM, low=0, low_open=True),
+    Key("post_mm", float, default=0.0, scale=MM, low=0),
+)
+MESH_KEYS = (
+    Key("size_mm", float, default=4.0, scale=MM, low=0.05, high=50),
+    Key("rib_size_mm", float, default=None, scale=MM, low=0.01, high=20),
+    Key("airgap_layers", int, default=2, low=1, high=8),
+    Key("steps_per_slot", int, default=24, low=4, high=400),
+    Key("element_order", int, default=1, low=1, high=2),
+    Key("averaging_positions", int, default=None, low=1, high=72),
+)
+OPERATING_KEYS = (
+    Key("current_peak_A", float, low=0, low_open=True),
+    Key("current_angle_deg", float, default=None, scale=DEG, low=0, high=90),
+    Key("overload_current_peak_A", float, default=None, low=0, low_open=True),
+    Key("speed_rpm", float, default=1500.0, low=0, low_open=True),
+)
+DRIVE_KEYS = (
+    Key("dc_link_voltage_V", float, default=565.0, low=0, low_open=True, high=100000),
+    Key("modulation_limit", float, default=1.0, low=0, low_open=True, high=1.0),
+    Key("max_speed_rpm", float, default=None, low=0, low_open=True, high=500000),
+    Key("current_limit_peak_A", float, default=None, low=0, low_open=True),
+    Key("copper_temperature_C", float, default=115.0, low=-60, high=250),
+    Key("end_winding_length_mm", float, default=None, scale=MM, low=0, low_open=True),
+    Key("flux_map_points", int, default=9, low=2, high=101),
+    Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
+    Key("flux_map_positions", int, default=None, low=1, high=72),
+    Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
+)
+MATERIAL_REGIONS = ("stator", "rotor", "shaft")
+SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating", "drive")
+MAX_BARRIERS = 5

@@ -139,7 +139,7 @@ def sector_tie_map(sd: SectorDofs, step: int = 0) -> TieMap:
     tie to its stator master with the product of the signs.
     """
     if step != int(step):
-        raise MeshError(f"step: {step!r} must be an integer number of rotor steps")
+        raise ValueError(f"step: {step!r} must be an integer number of rotor steps")
     ties = [_edge_tie(sd, part) for part in ("rotor", "stator") if part in sd.edges]
     if sd.sliding is not None:
         ties.append(_sliding_tie(sd, int(step)))

@@ -17,9 +17,8 @@ import numpy as np
 from skfem import Basis, MeshTri
 
 from . import assembly, linsolve
-from .errors import MaterialError, MeshError, SpecError
 from .mesh import MachineMesh
-from .newton import REUSE, LinearSolver, newton_solve
+from .newton import LinearSolver, newton_solve
 from .sector_ties import SectorDofs, sector_dofs, sector_tie_map
 from .tiemap import ReducedPattern, TieMap, reduced_pattern
 
@@ -118,8 +117,6 @@ class FieldSolution:
         Magnetic energy ``int w(B^2) dS`` of the modelled domain, J/m.
     coenergy_per_m
         Magnetic coenergy ``int w'(B^2) dS`` of the modelled domain, J/m.
-    factorizations
-        Jacobians factorised (fewer than ``iterations`` when factorisations were reused).
     """
 
     a: np.ndarray
@@ -130,7 +127,6 @@ class FieldSolution:
     iterations: int
     energy_per_m: float
     coenergy_per_m: float
-    factorizations: int = 0
 
 
 def make_problem(
@@ -155,16 +151,18 @@ def make_problem(
 
     Raises
     ------
-    MaterialError
-        On an empty material list or a bad ``element_material``.
+    TypeError
+        When ``mesh`` is neither kind of mesh, or ``element_material`` is not integer.
+    ValueError
+        On an empty material list or an ``element_material`` of the wrong length or range.
     MeshError
         On unmatched tie boundaries (via the tie map of step 0, built here as a check).
     """
     if not isinstance(mesh, MachineMesh | MeshTri):
-        raise MeshError(f"mesh: {type(mesh).__name__} is neither a MachineMesh nor a MeshTri")
+        raise TypeError(f"mesh: {type(mesh).__name__} is neither a MachineMesh nor a MeshTri")
     materials = tuple(materials)
     if not materials:
-        raise MaterialError("materials: the list is empty; give at least one material")
+        raise ValueError("materials: the list is empty; give at least one material")
     skmesh = mesh.mesh if isinstance(mesh, MachineMesh) else mesh
     basis = assembly.make_basis(skmesh, order)
     data = assembly.element_data(basis, element_material, len(materials))
@@ -191,7 +189,7 @@ def step_tie_map(problem: FieldProblem, step: int = 0) -> TieMap:
 def _prepared(problem: FieldProblem, step: int) -> tuple[TieMap, ReducedPattern]:
     """Tie map and reduced pattern of a step, from a small cache on the problem."""
     if isinstance(step, bool) or not isinstance(step, int | np.integer):
-        raise SpecError(f"step: {step!r} must be an integer number of rotor steps")
+        raise TypeError(f"step: {step!r} must be an integer number of rotor steps")
     cache = problem._steps
     key = int(step)
     if key not in cache:
@@ -214,7 +212,6 @@ def solve_field(
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
     linear_solver: str | LinearSolver = "auto",
-    reuse: float = REUSE,
 ) -> FieldSolution:
     """Solve the nonlinear field for a current density at a rotor step.
 
@@ -231,7 +228,7 @@ def solve_field(
     initial
         (n_dofs,) start potential, Wb/m, e.g. the solution of the neighbouring step or
         current; None starts from zero.
-    rtol, max_iter, callback, reuse
+    rtol, max_iter, callback
         See :func:`fluxlab.newton.newton_solve`.
     linear_solver
         A backend name of :func:`fluxlab.linsolve.choose` (``"auto"``, ``"scipy"``,
@@ -240,8 +237,10 @@ def solve_field(
 
     Raises
     ------
-    SpecError
+    ValueError
         On a current density of the wrong shape or with non-finite values.
+    TypeError
+        When ``step`` is not an integer.
     ConvergenceError
         When Newton does not converge (its ``history`` holds the residuals).
     """
@@ -257,7 +256,6 @@ def solve_field(
         max_iter,
         callback,
         linear_backend(problem, linear_solver),
-        reuse,
     )
 
 
@@ -267,8 +265,8 @@ def linear_backend(problem: FieldProblem, linear_solver: str | LinearSolver) -> 
 
     Raises
     ------
-    SpecError
-        On an unknown name, or ``"pardiso"`` without pypardiso installed.
+    What :func:`fluxlab.linsolve.choose` raises on an unknown name, or on ``"pardiso"``
+    without pypardiso installed.
     """
     if callable(linear_solver):
         return linear_solver
@@ -288,7 +286,6 @@ def solve_tied(
     max_iter: int = 40,
     callback: Callable[[int, float], None] | None = None,
     linear_solver: str | LinearSolver = "auto",
-    reuse: float = REUSE,
 ) -> FieldSolution:
     """Like :func:`solve_field`, with a tie map built by the caller.
 
@@ -297,17 +294,17 @@ def solve_tied(
     The solution's ``step`` is 0.
     """
     if tie.P.shape[0] != problem.n_dofs:
-        raise MeshError(f"tie: built for {tie.P.shape[0]} dofs, problem has {problem.n_dofs}")
+        raise ValueError(f"tie: built for {tie.P.shape[0]} dofs, problem has {problem.n_dofs}")
     pattern = reduced_pattern(tie, problem.data.pattern.indptr, problem.data.pattern.indices)
     return _solve(
         problem, tie, pattern, current_density, 0, initial, rtol, max_iter, callback,
-        linear_backend(problem, linear_solver), reuse,
+        linear_backend(problem, linear_solver),
     )
 
 
 def _solve(
     problem, tie, pattern, current_density, step, initial, rtol, max_iter, callback,
-    linear_solver, reuse,
+    linear_solver,
 ) -> FieldSolution:
     data = problem.data
     load = assembly.load_vector(data, assembly.source_at_quadrature(data, current_density))
@@ -322,7 +319,6 @@ def _solve(
         max_iter=max_iter,
         callback=callback,
         linear_solver=linear_solver,
-        reuse=reuse,
     )
     state = result.state
     w = data.weights
@@ -339,7 +335,6 @@ def _solve(
         result.iterations,
         assembly.energy(data, problem.materials, state),
         assembly.coenergy(data, problem.materials, state),
-        result.factorizations,
     )
 
 
@@ -360,7 +355,7 @@ def region_integral_of_a(
     if elements.dtype == bool:
         elements = np.flatnonzero(elements)
     if elements.size and (elements.min() < 0 or elements.max() >= problem.n_elements):
-        raise SpecError(
+        raise ValueError(
             f"elements: index out of range 0..{problem.n_elements - 1} "
             f"(got {int(elements.min())}..{int(elements.max())})"
         )

@@ -9,13 +9,37 @@ and radians. Every problem found in a file is reported together in one :class:`S
 
 from __future__ import annotations
 
-import copy
-from dataclasses import dataclass, field
+import json
 from pathlib import Path
 from typing import Any
 
 from .errors import SpecError
-from .schema import DEG, MM, Key, read_section
+from .schema import (
+    BARRIER_KEYS,
+    DRIVE_KEYS,
+    MACHINE_KEYS,
+    MATERIAL_REGIONS,
+    MAX_BARRIERS,
+    MESH_KEYS,
+    MM,
+    OPERATING_KEYS,
+    ROTOR_KEYS,
+    SECTIONS,
+    STATOR_KEYS,
+    WINDING_KEYS,
+    read_section,
+)
+from .spec_types import (
+    BarrierSpec,
+    DriveSpec,
+    MachineSpec,
+    MeshSpec,
+    OperatingSpec,
+    RegionMaterials,
+    RotorSpec,
+    StatorSpec,
+    WindingSpec,
+)
 from .tomlfile import read_toml
 
 __all__ = [
@@ -31,215 +55,6 @@ __all__ = [
     "machine_from_dict",
     "replace_path",
 ]
-
-MACHINE_KEYS = (
-    Key("name", str, default="unnamed machine"),
-    Key("poles", int, low=2, high=64),
-    Key("stack_length_mm", float, scale=MM, low=0, low_open=True, high=5000),
-)
-STATOR_KEYS = (
-    Key("slots", int, low=6, high=480),
-    Key("outer_diameter_mm", float, scale=MM, low=0, low_open=True),
-    Key("bore_diameter_mm", float, scale=MM, low=0, low_open=True),
-    Key("airgap_mm", float, scale=MM, low=0, low_open=True),
-    Key("slot_opening_mm", float, scale=MM, low=0, low_open=True),
-    Key("tip_height_mm", float, scale=MM, low=0, low_open=True),
-    Key("tooth_width_mm", float, default=None, scale=MM, low=0, low_open=True),
-    Key("slot_width_mm", float, default=None, scale=MM, low=0, low_open=True),
-    Key("slot_depth_mm", float, scale=MM, low=0, low_open=True),
-    Key("slot_bottom", str, default="round", choices=("round", "flat")),
-    Key("bottom_fillet_mm", float, default=0.0, scale=MM, low=0),
-)
-WINDING_KEYS = (
-    Key("layers", int, default=2, low=1, high=2),
-    Key("coil_pitch_slots", int, low=1),
-    Key("turns_per_coil", int, low=1),
-    Key("parallel_paths", int, default=1, low=1),
-    Key("fill_factor", float, default=0.45, low=0, low_open=True, high=0.8),
-)
-ROTOR_KEYS = (
-    Key("shaft_diameter_mm", float, scale=MM, low=0, low_open=True),
-    Key("barrier_shape", str, default="arc", choices=("arc", "u")),
-    Key("tangential_rib_mm", float, scale=MM, low=0, low_open=True),
-    Key("min_rib_mm", float, default=0.3, scale=MM, low=0, low_open=True),
-    Key("min_steel_mm", float, default=1.5, scale=MM, low=0, low_open=True),
-)
-BARRIER_KEYS = (
-    Key("depth_mm", float, scale=MM, low=0, low_open=True),
-    Key("end_angle_deg", float, scale=DEG, low=0, low_open=True, high=90),
-    Key("width_mm", float, scale=MM, low=0, low_open=True),
-    Key("post_mm", float, default=0.0, scale=MM, low=0),
-)
-MESH_KEYS = (
-    Key("size_mm", float, default=4.0, scale=MM, low=0.05, high=50),
-    Key("rib_size_mm", float, default=None, scale=MM, low=0.01, high=20),
-    Key("airgap_layers", int, default=2, low=1, high=8),
-    Key("steps_per_slot", int, default=24, low=4, high=400),
-    Key("element_order", int, default=1, low=1, high=2),
-    Key("averaging_positions", int, default=None, low=1, high=72),
-)
-OPERATING_KEYS = (
-    Key("current_peak_A", float, low=0, low_open=True),
-    Key("current_angle_deg", float, default=None, scale=DEG, low=0, high=90),
-    Key("overload_current_peak_A", float, default=None, low=0, low_open=True),
-    Key("speed_rpm", float, default=1500.0, low=0, low_open=True),
-)
-DRIVE_KEYS = (
-    Key("dc_link_voltage_V", float, default=565.0, low=0, low_open=True, high=100000),
-    Key("modulation_limit", float, default=1.0, low=0, low_open=True, high=1.0),
-    Key("max_speed_rpm", float, default=None, low=0, low_open=True, high=500000),
-    Key("current_limit_peak_A", float, default=None, low=0, low_open=True),
-    Key("copper_temperature_C", float, default=115.0, low=-60, high=250),
-    Key("end_winding_length_mm", float, default=None, scale=MM, low=0, low_open=True),
-    Key("flux_map_points", int, default=9, low=2, high=101),
-    Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
-    Key("flux_map_positions", int, default=None, low=1, high=72),
-    Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
-)
-MATERIAL_REGIONS = ("stator", "rotor", "shaft")
-SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating", "drive")
-MAX_BARRIERS = 5
-
-
-@dataclass(frozen=True)
-class BarrierSpec:
-    """One flux barrier of a pole, SI units.
-
-    ``depth``: where its centre line crosses the q-axis, m below the rotor surface.
-    ``end_angle``: middle of its opening under the tangential rib, rad from the q-axis.
-    ``width``: m, across the barrier. ``post_width``: radial rib on the q-axis, m (0: none).
-    """
-
-    depth: float
-    end_angle: float
-    width: float
-    post_width: float
-
-
-@dataclass(frozen=True)
-class StatorSpec:
-    """Slotted stator, SI units. Exactly one of ``tooth_width`` and ``slot_width`` is set."""
-
-    slots: int
-    outer_diameter: float
-    bore_diameter: float
-    airgap: float
-    slot_opening: float
-    tip_height: float
-    tooth_width: float | None
-    slot_width: float | None
-    slot_depth: float
-    slot_bottom: str
-    bottom_fillet: float
-
-
-@dataclass(frozen=True)
-class WindingSpec:
-    """Distributed three-phase winding."""
-
-    layers: int
-    coil_pitch_slots: int
-    turns_per_coil: int
-    parallel_paths: int
-    fill_factor: float
-
-
-@dataclass(frozen=True)
-class RotorSpec:
-    """Flux-barrier rotor, SI units; barriers ordered from the surface inwards."""
-
-    shaft_diameter: float
-    barrier_shape: str
-    tangential_rib: float
-    min_rib: float
-    min_steel: float
-    barriers: tuple[BarrierSpec, ...]
-
-
-@dataclass(frozen=True)
-class MeshSpec:
-    """Mesh controls, SI units. ``rib_size`` None means a third of the thinnest rib.
-
-    ``averaging_positions``: rotor positions over one torque period averaged for every
-    position-averaged figure (None: the rule of :func:`fluxlab.averaging.default_positions`);
-    the sliding circle is divided so that they are equally spaced.
-    """
-
-    size: float
-    rib_size: float | None
-    airgap_layers: int
-    steps_per_slot: int
-    element_order: int
-    averaging_positions: int | None = None
-
-
-@dataclass(frozen=True)
-class OperatingSpec:
-    """The rated operating point. Currents are peak phase amperes."""
-
-    current_peak_A: float
-    current_angle: float | None
-    overload_current_peak_A: float | None
-    speed_rpm: float
-
-
-@dataclass(frozen=True)
-class DriveSpec:
-    """Inverter limits and operating-envelope settings (section ``drive``, optional).
-
-    ``dc_link_voltage_V``, V; ``modulation_limit`` m in (0, 1]: peak phase voltage
-    m V_dc / sqrt(3) (space-vector modulation); ``max_speed_rpm`` (None: twice the rated
-    speed); ``current_limit_peak_A``, peak phase A (None: the overload current, else the
-    rated); ``copper_temperature_C``; ``end_winding_length``, m per coil end (None: estimated);
-    ``flux_map_points`` per axis, from 0 to ``flux_map_max_current_peak_A`` (None: the current
-    limit), averaged over ``flux_map_positions`` rotor positions (None: the machine's
-    averaging count, see :mod:`fluxlab.averaging`); ``rib_safety_factor`` on the
-    rotor steel's yield strength.
-    """
-
-    dc_link_voltage_V: float = 565.0
-    modulation_limit: float = 1.0
-    max_speed_rpm: float | None = None
-    current_limit_peak_A: float | None = None
-    copper_temperature_C: float = 115.0
-    end_winding_length: float | None = None
-    flux_map_points: int = 9
-    flux_map_max_current_peak_A: float | None = None
-    flux_map_positions: int | None = None
-    rib_safety_factor: float = 1.5
-
-
-@dataclass(frozen=True)
-class MachineSpec:
-    """A validated machine, SI units. ``raw`` keeps the file's own table (mm, deg)."""
-
-    name: str
-    poles: int
-    stack_length: float
-    stator: StatorSpec
-    winding: WindingSpec
-    rotor: RotorSpec
-    materials: dict
-    mesh: MeshSpec
-    operating: OperatingSpec
-    raw: dict = field(repr=False, compare=False)
-    base_dir: Path = field(default=Path("."), repr=False, compare=False)
-    drive: DriveSpec = field(default_factory=DriveSpec)
-
-    @property
-    def pole_pairs(self) -> int:
-        """p, the number of pole pairs."""
-        return self.poles // 2
-
-    @property
-    def rotor_radius(self) -> float:
-        """Rotor outer radius, m."""
-        return self.stator.bore_diameter / 2 - self.stator.airgap
-
-    def replace_path(self, path: str, value: Any) -> MachineSpec:
-        """A copy with one file-level key changed, re-validated (see :func:`replace_path`)."""
-        return replace_path(self, path, value)
-
 
 def _read_barriers(data: Any, problems: list[str]) -> tuple[BarrierSpec, ...]:
     if data is None:
@@ -343,6 +158,13 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
         )
 
 
+def _plain(value: Any) -> Any:
+    """JSON for what a table built in code may hold besides TOML's types (numpy scalars)."""
+    if hasattr(value, "item"):
+        return value.item()
+    raise TypeError(f"machine table value {value!r}: not a number, string, table or array")
+
+
 def _mm(value: float | None) -> float | None:
     return None if value is None else round(value / MM, 6)
 
@@ -393,7 +215,7 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         stator=StatorSpec(**sections["stator"]),
         winding=WindingSpec(**sections["winding"]),
         rotor=RotorSpec(**rotor_values, barriers=barriers),
-        materials=materials,
+        materials=RegionMaterials(**materials),
         mesh=MeshSpec(**sections["mesh"]),
         operating=OperatingSpec(
             current_peak_A=sections["operating"]["current_peak_A"],
@@ -401,7 +223,7 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
             overload_current_peak_A=sections["operating"]["overload_current_peak_A"],
             speed_rpm=sections["operating"]["speed"],
         ),
-        raw=copy.deepcopy(raw),
+        raw_json=json.dumps(raw, default=_plain),
         base_dir=base_dir,
         drive=DriveSpec(**{("max_speed_rpm" if k == "max_speed" else k): v
                            for k, v in sections["drive"].items()}),
@@ -445,6 +267,6 @@ def replace_path(spec: MachineSpec, path: str, value: Any) -> MachineSpec:
     """
     from .keypath import set_path
 
-    raw = copy.deepcopy(spec.raw)
+    raw = spec.raw
     set_path(raw, path, value)
     return machine_from_dict(raw, spec.base_dir)

@@ -26,15 +26,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 
 from fluxlab.bh_table import MU0
-from fluxlab.errors import MaterialError
-
-if TYPE_CHECKING:
-    from fluxlab.materials import Material
 
 __all__ = [
     "LossCoefficients",
@@ -42,7 +37,6 @@ __all__ = [
     "GRADES",
     "H_SAMPLES",
     "classical_eddy_coefficient",
-    "specific_iron_loss",
     "typical_polarization",
     "steel_curve",
 ]
@@ -84,29 +78,6 @@ def classical_eddy_coefficient(
     thickness: the thin-sheet, sinusoidal-flux result without skin effect (Bertotti 1988).
     """
     return math.pi**2 * thickness_m**2 / (6.0 * resistivity_Ohm_m * density_kg_m3)
-
-
-def specific_iron_loss(material: Material, b_peak_T: np.ndarray, f_Hz: np.ndarray) -> np.ndarray:
-    """Specific iron loss, W/kg, for sinusoidal flux of peak b_peak_T (T) at f_Hz (Hz).
-
-    Loss separation p = k_h f B^alpha + k_c f^2 B^2 + k_e f^1.5 B^1.5 (G. Bertotti,
-    IEEE Trans. Magn. 24(1), 1988) with the material's :class:`LossCoefficients`. No minor
-    loops, rotating flux, harmonics or cutting damage.
-
-    Raises
-    ------
-    MaterialError
-        If the material has no loss coefficients, or B or f is negative or not finite.
-    """
-    c = material.loss
-    if c is None:
-        raise MaterialError(f"material {material.name!r} has no iron-loss coefficients")
-    b = np.asarray(b_peak_T, dtype=float)
-    f = np.asarray(f_Hz, dtype=float)
-    for label, x in (("b_peak_T", b), ("f_Hz", f)):
-        if not np.all(np.isfinite(x) & (x >= 0)):
-            raise MaterialError(f"specific_iron_loss: {label} = {x} must be finite and >= 0")
-    return c.k_h * f * b**c.alpha + c.k_c * (f * b) ** 2 + c.k_e * (f * b) ** 1.5
 
 
 @dataclass(frozen=True)

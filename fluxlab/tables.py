@@ -1,13 +1,12 @@
-"""CSV tables of evaluation curves, units in the column names."""
+"""CSV tables, units in the column names: the writer and the tables of an evaluation."""
 
 from __future__ import annotations
 
 import csv
+from collections.abc import Mapping
 from pathlib import Path
 
 import numpy as np
-
-from .evaluate import Evaluation
 
 __all__ = ["write_csv", "evaluation_tables", "HARMONICS_CONVENTION"]
 
@@ -18,24 +17,57 @@ HARMONICS_CONVENTION = (
     "samples resolve")
 
 
-def write_csv(path: Path, columns: dict[str, np.ndarray], comment: str | None = None) -> Path:
-    """Write equal-length columns to ``path``; keys are the header (with units).
+def _cell(value, exact: bool) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, str):
+        return value
+    return str(value) if exact else f"{float(value):.10g}"
 
-    ``comment``: a first line starting with ``#`` (a convention the columns follow).
+
+def _values(column) -> list:
+    """The cells of a column; an array is flattened, a list's items stay whole."""
+    return np.ravel(column).tolist() if isinstance(column, np.ndarray) else list(column)
+
+
+def write_csv(path: str | Path, columns: Mapping[str, object], comment: str | None = None,
+              exact: bool = False) -> Path:
+    """Write equal-length columns to ``path`` (UTF-8); returns the path.
+
+    Parameters
+    ----------
+    path
+        The file, overwritten.
+    columns
+        Header name (with its unit, e.g. ``torque_Nm``) -> values: a sequence, or an array
+        of any shape (read in C order).  Text is written as it is, None as an empty cell,
+        numbers as ``%.10g``.
+    comment
+        A first line ``# comment`` (a convention the columns follow).
+    exact
+        Numbers as Python prints them (``str``: floats read back bit for bit) instead of
+        ``%.10g``.
+
+    Raises
+    ------
+    ValueError
+        When the columns differ in length.
     """
+    path = Path(path)
     names = list(columns)
-    rows = np.column_stack([np.asarray(columns[n], dtype=float) for n in names])
-    with path.open("w", newline="") as f:
+    cells = [[_cell(v, exact) for v in _values(columns[n])] for n in names]
+    with path.open("w", newline="", encoding="utf-8") as f:
         if comment:
             f.write(f"# {comment}\n")
         writer = csv.writer(f)
         writer.writerow(names)
-        writer.writerows([[f"{v:.10g}" for v in row] for row in rows])
+        writer.writerows(zip(*cells, strict=True))
     return path
 
 
-def evaluation_tables(evaluation: Evaluation) -> dict[str, dict[str, np.ndarray]]:
-    """Every curve of an evaluation as named tables (file stem -> columns)."""
+def evaluation_tables(evaluation) -> dict[str, dict[str, np.ndarray]]:
+    """Every curve of an :class:`fluxlab.evaluate.Evaluation` as named tables (file stem ->
+    columns)."""
     tables = {}
     r = evaluation.torque_vs_position
     if r is not None:

@@ -125,16 +125,16 @@ def _as_pairs(tie: Tie) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
     slave = np.asarray(tie.slave, dtype=np.intp).ravel()
     master = np.asarray(tie.master, dtype=np.intp).ravel()
     if slave.shape != master.shape:
-        raise MeshError(
+        raise ValueError(
             f"{tie.name}: {slave.size} slave dofs but {master.size} master dofs; "
             "they must pair one to one"
         )
     sign = np.broadcast_to(np.asarray(tie.sign, dtype=float), slave.shape).copy()
     if not np.all(np.abs(sign) == 1.0):
-        raise MeshError(f"{tie.name}: tie signs must be +1 or -1, got {np.unique(sign)}")
+        raise ValueError(f"{tie.name}: tie signs must be +1 or -1, got {np.unique(sign)}")
     jump = np.broadcast_to(np.asarray(tie.jump, dtype=float), slave.shape).copy()
     if np.unique(slave).size != slave.size:
-        raise MeshError(f"{tie.name}: a slave dof appears twice")
+        raise ValueError(f"{tie.name}: a slave dof appears twice")
     return slave, master, sign, jump
 
 
@@ -183,9 +183,12 @@ def build_tie_map(
 
     Raises
     ------
+    ValueError
+        On a tie with mismatched slave and master lengths, signs other than +-1 or a slave
+        dof listed twice (a wrong argument).
     MeshError
-        On mismatched tie lengths, signs other than +-1, cycles, or skipped ties that
-        contradict the others.
+        On cycles, or skipped ties that contradict the others (boundaries that do not fit
+        together).
     """
     fixed = np.asarray(fixed, dtype=np.intp).ravel()
     tgt = np.arange(n_dofs)

@@ -85,7 +85,7 @@ class WindingLayout:
         for name in ("phase", "sign"):
             arr = np.array(getattr(self, name), dtype=int)
             if arr.shape != (self.layers, self.slots):
-                raise WindingError(
+                raise ValueError(
                     f"WindingLayout.{name}: shape {arr.shape}, expected "
                     f"(layers, slots) = ({self.layers}, {self.slots})"
                 )
@@ -245,7 +245,7 @@ def winding_layout(slots: int, poles: int, layers: int, coil_pitch_slots: int) -
 def _phase_sides(layout: WindingLayout, phase: int) -> tuple[np.ndarray, np.ndarray]:
     """Mechanical angles (rad) and signs of all coil sides of one phase."""
     if phase not in (0, 1, 2):
-        raise WindingError(f"phase = {phase!r}: must be 0, 1 or 2 (a, b, c)")
+        raise ValueError(f"phase = {phase!r}: must be 0, 1 or 2 (a, b, c)")
     mask = layout.phase == phase
     theta = np.broadcast_to(slot_angles(layout.slots), mask.shape)
     return theta[mask], layout.sign[mask]
@@ -258,7 +258,7 @@ def winding_factors(layout: WindingLayout, harmonics: Sequence[float] | np.ndarr
     order = nu * p
     bad = np.abs(order - np.round(order)) > 1e-9
     if np.any(bad):
-        raise WindingError(
+        raise ValueError(
             f"harmonic = {nu[bad][0]:g}: harmonic * pole pairs ({p}) must be an integer "
             "(the mechanical order of the space harmonic)"
         )
@@ -290,7 +290,7 @@ def phase_axis_angle(layout: WindingLayout, phase: int = 0) -> float:
     p = layout.pole_pairs
     C = np.sum(s * np.exp(-1j * p * theta))
     if abs(C) < 1e-9 * theta.size:
-        raise WindingError(f"phase = {phase}: no fundamental conductor density, axis undefined")
+        raise ValueError(f"phase = {phase}: no fundamental conductor density, axis undefined")
     period = 2 * math.pi / p
     axis = float(np.mod((-np.angle(C) - math.pi / 2) / p, period))
     return 0.0 if axis >= period else axis  # np.mod may round up to the period itself

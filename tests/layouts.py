@@ -9,13 +9,9 @@ checks fast; the averaging question does not depend on the mesh.
 
 from __future__ import annotations
 
-import copy
-from pathlib import Path
+from paths import GEOMETRIES, demo_table
 
 from fluxlab.spec import machine_from_dict
-from fluxlab.tomlfile import read_toml
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 
 #: name -> (poles, slots, coil pitch in slots, tooth width mm, slot opening mm, barriers or
 #: None for the demo's, steps per slot: the ripple count, which is also the dense reference)
@@ -35,7 +31,7 @@ LAYOUTS = {
 def layout_table(name: str) -> dict:
     """The machine table (file units) of one layout."""
     poles, slots, pitch, tooth, opening, barriers, per_slot = LAYOUTS[name]
-    table = copy.deepcopy(read_toml(GEOMETRIES / "demo_fan_drive.toml", "machine file"))
+    table = demo_table()
     table.pop("drive", None)
     table["machine"].update(name=f"layout {name}", poles=poles)
     table["stator"].update(slots=slots, tooth_width_mm=tooth, slot_opening_mm=opening)

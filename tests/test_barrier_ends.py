@@ -8,24 +8,16 @@ are checked against closed-form trigonometry written here.
 
 import math
 import re
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import DEMO, GEOMETRIES, demo_table
 
 from fluxlab.errors import GeometryError, SpecError
 from fluxlab.geometry.csg import to_shapely
 from fluxlab.geometry.rotor import barrier_placement, barrier_shape, opening_angles
 from fluxlab.spec import BarrierSpec, RotorSpec, load_machine, machine_from_dict
 
-if sys.version_info >= (3, 11):
-    import tomllib
-else:
-    import tomli as tomllib
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
-DEMO = GEOMETRIES / "demo_fan_drive.toml"
 R_ROTOR = 0.0675  # m, the demo rotor (bore 136 mm, air gap 0.5 mm)
 #: The brief's tolerance on the opening middle, deg.
 ANGLE_TOL = 0.02
@@ -154,8 +146,7 @@ def test_u_legs_that_would_meet_are_rejected():
 
 
 def _demo_with(index: int, **values) -> dict:
-    with DEMO.open("rb") as f:
-        raw = tomllib.load(f)
+    raw = demo_table()
     raw["rotor"]["barriers"][index].update(values)
     return raw
 
@@ -179,8 +170,7 @@ def test_check_prints_the_openings(capsys):
 
     assert main(["check", str(DEMO)]) == 0
     found = _LINE.findall(capsys.readouterr().out)
-    with DEMO.open("rb") as f:
-        barriers = tomllib.load(f)["rotor"]["barriers"]
+    barriers = demo_table()["rotor"]["barriers"]
     assert [int(m[1]) for m in found] == list(range(len(barriers))) == [0, 1, 2]
     spec = load_machine(DEMO)
     r_rib = spec.rotor_radius - spec.rotor.tangential_rib

@@ -4,6 +4,7 @@ import json
 import re
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from fluxlab.cli import main
@@ -98,3 +99,33 @@ def test_evaluate_writes_every_output(coarse_machine, tmp_path):
 def test_missing_file_is_a_clear_error(tmp_path, capsys):
     assert main(["check", str(tmp_path / "nothing.toml")]) == 1
     assert "no such machine file" in capsys.readouterr().err
+
+
+def test_csv_writer_numbers_text_and_comment(tmp_path):
+    from fluxlab.tables import write_csv
+
+    grid = np.array([[0.1, 2.0], [1 / 3, 12345678901.0]])
+    path = write_csv(tmp_path / "t.csv", {"x_mm": grid, "part": ["a", "b,c", "d", None]},
+                     comment="x in mm")
+    assert path.read_text().splitlines() == [
+        "# x in mm", "x_mm,part", "0.1,a", "2,\"b,c\"", "0.3333333333,d", "1.23456789e+10,"]
+    exact = write_csv(tmp_path / "e.csv", {"v": [1 / 3, 7]}, exact=True)
+    assert exact.read_text().splitlines()[1:] == [repr(1 / 3), "7"]
+    with pytest.raises(ValueError):
+        write_csv(tmp_path / "bad.csv", {"a": [1, 2], "b": [1]})
+
+
+def test_figures_are_saved_in_each_format_and_closed(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from fluxlab.figures import save_figure
+
+    fig, ax = plt.subplots()
+    ax.plot([0, 1], [1, 0])
+    paths = save_figure(fig, tmp_path, "line", ("png", "svg"))
+    assert paths == [tmp_path / "line.png", tmp_path / "line.svg"]
+    assert paths[0].read_bytes()[:4] == b"\x89PNG" and b"<svg" in paths[1].read_bytes()
+    assert not plt.fignum_exists(fig.number)

@@ -5,30 +5,29 @@ keeps the demo's M400-50A.
 """
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import DEMO
 
 from fluxlab.envelope import flux_map, incremental_inductances, mtpa_trajectory
 from fluxlab.envelope.ironloss import sweep_steps
 from fluxlab.model import build_model
 from fluxlab.operating_point import solve_point
-from fluxlab.spec import load_machine
+from fluxlab.spec import load_machine, replace_path
 from fluxlab.studies import inductance_curves
 
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 LINEAR_STEEL = {"linear_mu_r": 2000.0}
 
 
 def _coarse():
-    return load_machine(GEOMETRIES / "demo_fan_drive.toml").replace_path("mesh.size_mm", 6.0)
+    return replace_path(load_machine(DEMO), "mesh.size_mm", 6.0)
 
 
 @pytest.fixture(scope="module")
 def linear_model():
-    spec = _coarse().replace_path("materials.stator", LINEAR_STEEL)
-    return build_model(spec.replace_path("materials.rotor", LINEAR_STEEL))
+    spec = replace_path(_coarse(), "materials.stator", LINEAR_STEEL)
+    return build_model(replace_path(spec, "materials.rotor", LINEAR_STEEL))
 
 
 @pytest.fixture(scope="module")

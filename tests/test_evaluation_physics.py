@@ -5,10 +5,10 @@ machine obeys the ideal dq model exactly apart from space harmonics.
 """
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 
 from fluxlab.dq import power_factor
 from fluxlab.evaluate import StudySettings, evaluate
@@ -16,7 +16,7 @@ from fluxlab.model import build_model, current_density, phase_currents, rotor_st
 from fluxlab.operating_point import solve_point
 from fluxlab.post import machine_energy, torque_maxwell
 from fluxlab.solver import solve_field
-from fluxlab.spec import load_machine
+from fluxlab.spec import load_machine, replace_path
 from fluxlab.studies import (
     inductance_curves,
     ripple_steps,
@@ -24,20 +24,19 @@ from fluxlab.studies import (
     torque_vs_position,
 )
 
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 LINEAR_STEEL = {"linear_mu_r": 2000.0}
 
 
 def _coarse(spec):
     """The same geometry on a coarser mesh, to keep the suite fast."""
-    return spec.replace_path("mesh.size_mm", 4.5)
+    return replace_path(spec, "mesh.size_mm", 4.5)
 
 
 @pytest.fixture(scope="module")
-def linear_model():
-    spec = load_machine(GEOMETRIES / "demo_fan_drive.toml")
-    spec = spec.replace_path("materials.stator", LINEAR_STEEL)
-    spec = spec.replace_path("materials.rotor", LINEAR_STEEL)
+def linear_model(demo_spec):
+    spec = demo_spec
+    spec = replace_path(spec, "materials.stator", LINEAR_STEEL)
+    spec = replace_path(spec, "materials.rotor", LINEAR_STEEL)
     return build_model(_coarse(spec))
 
 
@@ -104,8 +103,8 @@ def test_linear_maximum_power_factor(linear_model, linear_angle_study):
 
 
 @pytest.fixture(scope="module")
-def saturable_model():
-    return build_model(_coarse(load_machine(GEOMETRIES / "demo_fan_drive.toml")))
+def saturable_model(demo_spec):
+    return build_model(_coarse(demo_spec))
 
 
 @pytest.mark.slow  # nonlinear studies: minutes on two cores
@@ -129,6 +128,18 @@ def test_round_rotor_has_no_saliency_and_no_torque(saturable_model):
     barrier = evaluate(saturable_model.spec, settings, model=saturable_model).summary
     assert round_rotor["saliency_apparent"] == pytest.approx(1.0, abs=0.02)
     assert abs(round_rotor["torque_mean_Nm"]) < 0.01 * abs(barrier["torque_mean_Nm"])
+
+
+@pytest.mark.slow  # a full evaluation of a coarse machine
+def test_round_rotor_full_evaluation_finds_no_torque_peak():
+    # Without saliency the torque has no maximum inside 0-90 deg of current angle (common
+    # practice, no source): the MTPA search must end at an edge, not fail, and report a
+    # torque under 1 % of the barrier rotor's.
+    round_spec = replace_path(_coarse(load_machine(GEOMETRIES / "demo_round_rotor.toml")),
+                              "mesh.size_mm", 8.0)
+    summary = evaluate(round_spec, StudySettings(inductance_points=2)).summary
+    assert abs(summary["mtpa_torque_Nm"]) < 0.5  # N m: 1 % of the barrier demo's 49 N m
+    assert summary["mtpa_angle_deg"] is not None
 
 
 @pytest.mark.slow  # nonlinear studies: minutes on two cores

@@ -2,10 +2,10 @@
 
 import dataclasses
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 
 from fluxlab.flux_density import (
     region_elements,
@@ -20,14 +20,12 @@ from fluxlab.materials import MU0
 from fluxlab.model import build_model
 from fluxlab.operating_point import solve_point
 from fluxlab.solver import element_areas
-from fluxlab.spec import load_machine
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
+from fluxlab.spec import load_machine, replace_path
 
 
 def _coarse(name):
     """A demo machine on a coarser mesh, to keep the suite fast."""
-    return load_machine(GEOMETRIES / name).replace_path("mesh.size_mm", 4.5)
+    return replace_path(load_machine(GEOMETRIES / name), "mesh.size_mm", 4.5)
 
 
 @pytest.fixture(scope="module")
@@ -40,8 +38,8 @@ def round_rotor_linear():
     # mu_r 1e5: the iron's share of the MMF (about 12 % at mu_r 2000 on this machine)
     # drops below 0.5 %, so the air-gap estimate below needs no iron term
     steel = {"linear_mu_r": 1e5}
-    spec = _coarse("demo_round_rotor.toml").replace_path("materials.stator", steel)
-    return build_model(spec.replace_path("materials.rotor", steel))
+    spec = replace_path(_coarse("demo_round_rotor.toml"), "materials.stator", steel)
+    return build_model(replace_path(spec, "materials.rotor", steel))
 
 
 # ------------------------------------------------------------------ weighted percentile
@@ -83,7 +81,7 @@ def test_slot_bottom_radius_round_and_flat():
     assert slot_bottom_radius(spec) == pytest.approx(x_bottom, rel=1e-9)
     # flat bottom, parallel teeth: the bottom corners at half width
     # (x sin(pi/Q) - w_t/2) / cos(pi/Q), the side at w_t/2 from the tooth centre line
-    flat = spec.replace_path("stator.slot_bottom", "flat")
+    flat = replace_path(spec, "stator.slot_bottom", "flat")
     a = math.pi / st.slots
     half = (x_bottom * math.sin(a) - st.tooth_width / 2) / math.cos(a)
     assert slot_bottom_radius(flat) == pytest.approx(math.hypot(x_bottom, half), rel=1e-9)

@@ -27,23 +27,20 @@ import multiprocessing
 import sys
 import traceback
 from datetime import timedelta
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pytest
 from hypothesis import HealthCheck, Phase, event, given, settings
 from hypothesis import strategies as st
+from paths import GEOMETRIES, demo_table
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:
     import tomli as tomllib
 
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
-DEMO = GEOMETRIES / "demo_fan_drive.toml"
-with DEMO.open("rb") as _f:
-    DEMO_RAW: dict = tomllib.load(_f)
+DEMO_RAW: dict = demo_table()
 
 #: Hard wall limit per example, s. A coarse mesh here takes 0.1-8 s (measured); a draw
 #: that has not answered after this long is taken as a hang (common practice, no source).

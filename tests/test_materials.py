@@ -302,8 +302,9 @@ def test_loss_scales_and_refuses_bad_input():
     assert specific_iron_loss(material, np.array([0.5, 1.0]), 50.0).shape == (2,)
     with pytest.raises(MaterialError, match="'air' has no iron-loss"):
         specific_iron_loss(AIR, 1.0, 50.0)
-    with pytest.raises(MaterialError, match="b_peak_T"):
+    with pytest.raises(ValueError, match="b_peak_T") as info:  # a wrong argument
         specific_iron_loss(material, -1.0, 50.0)
+    assert not isinstance(info.value, MaterialError)
 
 
 # --- bad input ------------------------------------------------------------------------------

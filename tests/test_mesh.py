@@ -5,21 +5,20 @@ with shapely (barriers) from the spec's numbers; the mesh comes from gmsh.
 """
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 
 from fluxlab.mesh import build_mesh
-from fluxlab.spec import load_machine
+from fluxlab.spec import load_machine, replace_path
 
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 AREA_TOL = 5e-3  # issue requirement: region areas within 0.5 %
 
 
 @pytest.fixture(scope="module")
-def demo():
-    spec = load_machine(GEOMETRIES / "demo_fan_drive.toml")
+def demo(demo_spec):
+    spec = demo_spec
     return spec, build_mesh(spec)
 
 
@@ -152,7 +151,7 @@ def test_parallel_slot_areas_match_closed_form(pump):
 
 def test_round_bottom_parallel_slot_area(pump):
     spec, _ = pump
-    spec = spec.replace_path("stator.slot_bottom", "round")
+    spec = replace_path(spec, "stator.slot_bottom", "round")
     m = build_mesh(spec)
     st = spec.stator
     x_top = st.bore_diameter / 2 + st.tip_height
@@ -258,9 +257,9 @@ def test_meshing_leaves_sigpipe_ignored():
 
     code = (
         "import os\n"
-        "from fluxlab.mesh import build_mesh\nfrom fluxlab.spec import load_machine\n"
+        "from fluxlab.mesh import build_mesh\nfrom fluxlab.spec import load_machine, replace_path\n"
         f"spec = load_machine({str(GEOMETRIES / 'demo_round_rotor.toml')!r})\n"
-        "build_mesh(spec.replace_path('mesh.size_mm', 8.0))\n"
+        "build_mesh(replace_path(spec, 'mesh.size_mm', 8.0))\n"
         "r, w = os.pipe()\nos.close(r)\n"
         "try:\n    os.write(w, b'x')\nexcept BrokenPipeError:\n    print('ok')\n"
     )

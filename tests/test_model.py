@@ -1,7 +1,6 @@
 """The machine model: rotor position zero, conductor weights, excitation errors."""
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -15,15 +14,13 @@ from fluxlab.model import (
 )
 from fluxlab.operating_point import solve_point
 from fluxlab.solver import element_areas
-from fluxlab.spec import load_machine
+from fluxlab.spec import replace_path
 from fluxlab.winding import series_turns_per_phase
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 
 
 @pytest.fixture(scope="module")
-def model():
-    spec = load_machine(GEOMETRIES / "demo_fan_drive.toml").replace_path("mesh.size_mm", 6.0)
+def model(demo_spec):
+    spec = replace_path(demo_spec, "mesh.size_mm", 6.0)
     return build_model(spec)
 
 
@@ -65,5 +62,8 @@ def test_phase_currents_are_balanced():
 def test_current_density_on_a_region_without_a_winding_is_an_error(model):
     j = coil_side_current_density(model, {"slot_0_layer_0": 1e6})
     assert j.max() == 1e6
-    with pytest.raises(SpecError, match="'rotor_iron' = 1000000.0 A/m\\^2: the region carries"):
+    message = "'rotor_iron' = 1000000.0 A/m\\^2: the region carries"
+    with pytest.raises(ValueError, match=message) as info:
         coil_side_current_density(model, {"rotor_iron": 1e6, "shaft": 2e6})
+    assert not isinstance(info.value, SpecError)  # a wrong argument, not a machine file
+    assert "'shaft' = 2000000.0" in str(info.value)  # every region named

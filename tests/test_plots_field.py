@@ -33,7 +33,7 @@ from fluxlab.plots_field import (  # noqa: E402
     rotor_copies,
 )
 from fluxlab.solver import solve_field  # noqa: E402
-from fluxlab.spec import load_machine  # noqa: E402
+from fluxlab.spec import load_machine, replace_path  # noqa: E402
 from fluxlab.winding import machine_symmetry  # noqa: E402
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
@@ -230,7 +230,7 @@ def test_d_axis_mark_is_where_the_d_current_field_changes_sign_in_the_gap(demo):
 @pytest.mark.slow
 def test_field_figure_of_a_p2_model_uses_vertex_values():
     spec = load_machine(GEOMETRIES / "demo_fan_drive.toml")
-    spec = spec.replace_path("mesh.element_order", 2).replace_path("mesh.size_mm", 6.0)
+    spec = replace_path(replace_path(spec, "mesh.element_order", 2), "mesh.size_mm", 6.0)
     model = build_model(spec)
     sol = _solve(model, 0.0, spec.operating.current_peak_A)
     ax = plot_field(model, sol)

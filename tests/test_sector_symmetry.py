@@ -6,10 +6,10 @@ solver tolerance; turning the rotor by a whole sector is a symmetry of the machi
 """
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 from skfem import MeshTri
 
 from fluxlab.mesh import MachineMesh, _facet_indices, build_mesh
@@ -17,13 +17,11 @@ from fluxlab.model import build_model, current_density, phase_currents
 from fluxlab.operating_point import solve_point
 from fluxlab.post import flux_linkage_abc, machine_energy, torque_maxwell
 from fluxlab.solver import solve_field
-from fluxlab.spec import load_machine
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
+from fluxlab.spec import load_machine, replace_path
 
 
 def _coarse(name):
-    return load_machine(GEOMETRIES / name).replace_path("mesh.size_mm", 6.0)
+    return replace_path(load_machine(GEOMETRIES / name), "mesh.size_mm", 6.0)
 
 
 @pytest.fixture(scope="module")

@@ -2,28 +2,13 @@
 
 import copy
 import math
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 
 from fluxlab.errors import SpecError
-from fluxlab.spec import load_machine, machine_from_dict
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:
-    import tomli as tomllib
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
-DEMO = GEOMETRIES / "demo_fan_drive.toml"
-
-
-@pytest.fixture(scope="module")
-def demo_raw() -> dict:
-    with DEMO.open("rb") as f:
-        return tomllib.load(f)
+from fluxlab.spec import load_machine, machine_from_dict, replace_path
 
 
 def _broken(raw: dict, path: str, value) -> dict:
@@ -72,14 +57,14 @@ def test_spec_is_immutable(demo_raw):
 
 def test_replace_path_returns_a_revalidated_copy(demo_raw):
     spec = machine_from_dict(demo_raw, GEOMETRIES)
-    other = spec.replace_path("rotor.barriers[1].end_angle_deg", 22.0)
+    other = replace_path(spec, "rotor.barriers[1].end_angle_deg", 22.0)
     assert other.rotor.barriers[1].end_angle == pytest.approx(math.radians(22.0))
     stated = demo_raw["rotor"]["barriers"][1]["end_angle_deg"]
     assert spec.rotor.barriers[1].end_angle == pytest.approx(math.radians(stated))
     with pytest.raises(SpecError, match=r"rotor.barriers\[1\].width_mm"):
-        spec.replace_path("rotor.barriers[1].width_mm", -1.0)
+        replace_path(spec, "rotor.barriers[1].width_mm", -1.0)
     with pytest.raises(SpecError, match="has no rotor.nothing"):
-        spec.replace_path("rotor.nothing.width_mm", 1.0)
+        replace_path(spec, "rotor.nothing.width_mm", 1.0)
 
 
 # One case per kind of bad input: (path, value, text the message must contain).

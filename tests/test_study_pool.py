@@ -4,13 +4,12 @@ from __future__ import annotations
 
 import dataclasses
 import os
-from pathlib import Path
+
+from paths import DEMO
 
 from fluxlab.model import build_model
-from fluxlab.spec import load_machine
+from fluxlab.spec import load_machine, replace_path
 from fluxlab.study_pool import StudyPool
-
-DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 
 
 def _describe(model, label):
@@ -18,7 +17,7 @@ def _describe(model, label):
 
 
 def test_workers_rebuild_the_parent_model_with_its_settings():
-    spec = load_machine(DEMO).replace_path("mesh.size_mm", 9.0)
+    spec = replace_path(load_machine(DEMO), "mesh.size_mm", 9.0)
     model = dataclasses.replace(build_model(spec, linear_solver="scipy"), newton_rtol=3e-7)
     tasks = [(f"t{k}", _describe, (k,)) for k in range(4)]
     with StudyPool(2) as pool:
@@ -33,7 +32,7 @@ def test_workers_rebuild_the_parent_model_with_its_settings():
 
 
 def test_a_pool_of_one_runs_here():
-    spec = load_machine(DEMO).replace_path("mesh.size_mm", 9.0)
+    spec = replace_path(load_machine(DEMO), "mesh.size_mm", 9.0)
     model = build_model(spec)
     with StudyPool(1) as pool:
         done = pool.run(model, [("a", _describe, ("a",)), ("b", _describe, ("b",))])

@@ -8,7 +8,6 @@ rotor positions solved to 1e-10, an independent and far tighter computation.
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -17,15 +16,13 @@ from fluxlab.model import STUDY_RTOL, build_model, current_density, phase_curren
 from fluxlab.operating_point import solve_point
 from fluxlab.post import flux_linkage_abc, park, torque_maxwell
 from fluxlab.solver import solve_field
-from fluxlab.spec import load_machine
+from fluxlab.spec import replace_path
 from fluxlab.studies import ripple_steps
-
-DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 
 
 @pytest.fixture(scope="module")
-def overload_model():
-    spec = load_machine(DEMO).replace_path("mesh.size_mm", 4.5)
+def overload_model(demo_spec):
+    spec = replace_path(demo_spec, "mesh.size_mm", 4.5)
     return build_model(spec)
 
 

@@ -1,14 +1,11 @@
 """Sweep files: validation messages name the key and value; plans are complete and seeded."""
 
-from pathlib import Path
-
 import numpy as np
 import pytest
+from paths import GEOMETRIES
 
 from fluxlab.errors import SpecError
 from fluxlab.sweep import candidate_key, make_candidates, plan_points, sweep_from_dict
-
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 
 
 def _sweep(parameters, plan=None, **top):

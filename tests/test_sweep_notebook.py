@@ -2,12 +2,12 @@
 
 import csv
 import json
-from pathlib import Path
 
 import nbformat
 from nbclient import NotebookClient
+from paths import REPO_ROOT
 
-NOTEBOOK = Path(__file__).resolve().parents[1] / "notebooks" / "sweep_demo.ipynb"
+NOTEBOOK = REPO_ROOT / "notebooks" / "sweep_demo.ipynb"
 
 
 def test_sweep_notebook_runs_and_reports_its_sweep(tmp_path, monkeypatch):

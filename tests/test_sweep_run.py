@@ -17,14 +17,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from paths import DEMO
 
 from fluxlab.cli import main
-from fluxlab.spec import load_machine
+from fluxlab.spec import load_machine, replace_path
 from fluxlab.sweep import ResultStore, run_sweep
 from fluxlab.sweep.testing import fake_summary
 
-GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
-DEMO = GEOMETRIES / "demo_fan_drive.toml"
 FAKE = "fluxlab.sweep.testing:fake_evaluate"
 END1 = "rotor.barriers[1].end_angle_deg"
 SPEED = "operating.speed_rpm"
@@ -58,9 +57,9 @@ def test_invalid_and_failing_candidates_are_stored_and_the_sweep_goes_on(tmp_pat
         if r["status"] == "failed":
             assert r["message"].startswith("ConvergenceError: fake solver")
         if r["status"] == "done":
-            # reference: the same machine built through MachineSpec.replace_path, evaluated
+            # reference: the same machine built through replace_path, evaluated
             # directly, not through the sweep
-            spec = load_machine(DEMO).replace_path(END1, r[END1])
+            spec = replace_path(load_machine(DEMO), END1, r[END1])
             assert r["torque_mean_Nm"] == fake_summary(spec, "point")["torque_mean_Nm"]
     with ResultStore(tmp_path / "out" / "results.sqlite") as store:
         assert len(store.statuses()) == 6

@@ -2,17 +2,24 @@
 
 Each subcommand module has ``add_args(parser)`` and ``run(args) -> int``; the front end only
 parses, calls the library and writes files.
+
+Errors: a :class:`~fluxlab.errors.FluxlabError` (a bad machine or sweep file, a failed mesh
+or solve) is printed as a message, exit code 1. An option value the library refuses is
+checked before any work by :func:`option_problem`, with the library's own checks, and
+printed as one line, exit code 2. Any other exception is a bug and keeps its traceback.
 """
 
 from __future__ import annotations
 
 import argparse
 import logging
+import math
 import sys
+from collections.abc import Callable
 
 from ..errors import FluxlabError
 
-__all__ = ["main"]
+__all__ = ["main", "option_problem"]
 
 _COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope")
 
@@ -20,7 +27,7 @@ _COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope
 def _parser() -> argparse.ArgumentParser:
     from importlib import import_module
 
-    from .. import __version__
+    from ..version import __version__
 
     parser = argparse.ArgumentParser(
         prog="fluxlab",
@@ -39,6 +46,70 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _linear_solver(name: str) -> None:
+    from ..linsolve import choose
+
+    try:
+        choose(name)
+    except ImportError as err:  # an optional backend that is not installed
+        raise ValueError(f"{name!r} is not available here ({err})") from err
+
+
+def _finite(value: float) -> None:
+    if not math.isfinite(value):
+        raise ValueError(f"{value!r} must be a finite number")
+
+
+def _option_checks(args) -> list[tuple[str, Callable[[], object]]]:
+    """(options, check) pairs for the values of ``args`` a user typed; a check raises
+    ValueError on a value it refuses."""
+    checks: list[tuple[str, Callable[[], object]]] = []
+    if getattr(args, "linear_solver", None) is not None:
+        checks.append(("--linear-solver", lambda: _linear_solver(args.linear_solver)))
+    if args.command == "evaluate":
+        from ..evaluate import StudySettings
+
+        checks.append(("--studies, --angle-step-deg, --inductance-points",
+                       lambda: StudySettings(studies=args.studies,
+                                             angle_step_deg=args.angle_step_deg,
+                                             inductance_points=args.inductance_points)))
+    elif args.command == "envelope":
+        from ..envelope import envelope_settings
+        from ..spec import load_machine
+
+        # the cross-checks need the machine (its current limit); reading it is fast
+        checks.append(("--points, --positions, --max-current-A, --speed-points, "
+                       "--loss-samples",
+                       lambda: envelope_settings(
+                           load_machine(args.machine), map_points=args.points,
+                           map_positions=args.positions, map_max_current_A=args.max_current_A,
+                           speed_points=args.speed_points, loss_samples=args.loss_samples)))
+    elif args.command == "solve":
+        for name in ("current_A", "current_angle_deg", "position_deg"):
+            flag = "--" + name.replace("_", "-")
+            checks.append((flag, lambda name=name: _finite(getattr(args, name))))
+    return checks
+
+
+def option_problem(args) -> str | None:
+    """One line naming the first command-line option value the library refuses, else None.
+
+    The library raises a plain ValueError for a bad argument, as it cannot tell a value a
+    user typed from a programmer's mistake; :func:`main` must not catch ValueError around
+    the whole command (that would print bugs as messages), so the options are checked here
+    first, with the library's own checks. A :class:`FluxlabError` (the machine file named
+    on the command line is invalid) is raised as it is.
+    """
+    for options, check in _option_checks(args):
+        try:
+            check()
+        except FluxlabError:
+            raise
+        except ValueError as err:
+            return f"{options}: {err}"
+    return None
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit code (0 ok, 1 fluxlab error, 2 usage)."""
     args = _parser().parse_args(argv)
@@ -49,6 +120,10 @@ def main(argv: list[str] | None = None) -> int:
     from threadpoolctl import threadpool_limits
 
     try:
+        problem = option_problem(args)
+        if problem is not None:
+            print(f"fluxlab {args.command}: error: {problem}", file=sys.stderr)
+            return 2
         # one BLAS thread: on few cores the pools fight with the sparse factorisation
         with threadpool_limits(limits=1):
             return args.handler(args)

@@ -6,7 +6,6 @@ Writes CSV tables (units in the column names; peak phase currents and voltages),
 
 from __future__ import annotations
 
-import csv
 import json
 import os
 from pathlib import Path
@@ -14,8 +13,10 @@ from pathlib import Path
 import numpy as np
 
 from ..envelope import envelope_settings, envelope_study, incremental_inductances, inverse_tables
-from ..spec import load_machine
-from .progress import Progress
+from ..figures import save_figure
+from ..spec import load_machine, machine_from_dict
+from ..sweep.progress import Progress
+from ..tables import write_csv
 
 __all__ = ["add_args", "run", "envelope_tables", "write_envelope"]
 
@@ -27,7 +28,8 @@ def add_args(parser) -> None:
                         help="flux-map points per axis (default: drive.flux_map_points)")
     parser.add_argument("--positions", type=int, default=None,
                         help="rotor positions averaged per map point "
-                             "(default: drive.flux_map_positions)")
+                             "(default: drive.flux_map_positions, else the machine's averaging "
+                             "count; the mesh is made for it)")
     parser.add_argument("--max-current-A", type=float, default=None,
                         help="flux-map range, peak A (default: the current limit)")
     parser.add_argument("--speed-points", type=int, default=61,
@@ -37,17 +39,6 @@ def add_args(parser) -> None:
                              "(default 48; 0 skips it)")
     parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
                         help="processes for the FEM solves (default: the core count)")
-
-
-def _write(path: Path, columns: dict) -> Path:
-    names = list(columns)
-    rows = zip(*(np.asarray(columns[n]).ravel() for n in names), strict=True)
-    with path.open("w", newline="") as f:
-        writer = csv.writer(f)
-        writer.writerow(names)
-        for row in rows:
-            writer.writerow([v if isinstance(v, str) else f"{float(v):.10g}" for v in row])
-    return path
 
 
 def envelope_tables(result) -> dict[str, dict]:
@@ -99,23 +90,15 @@ def envelope_tables(result) -> dict[str, dict]:
     return tables
 
 
-def _save(fig, out: Path, stem: str, written: list) -> None:
-    for suffix in ("png", "svg"):
-        fig.savefig(out / f"{stem}.{suffix}", dpi=150)
-        written.append(out / f"{stem}.{suffix}")
-
-
 def write_envelope(result, out: Path) -> list[Path]:
     """Write the tables, figures, envelope.pdf and envelope_summary.json; returns the paths."""
     import matplotlib
 
     matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     from .. import plots_envelope as pe
 
     out.mkdir(parents=True, exist_ok=True)
-    written = [_write(out / f"{stem}.csv", cols)
+    written = [write_csv(out / f"{stem}.csv", cols)
                for stem, cols in envelope_tables(result).items()]
     summary = {**result.summary, "rib_warnings": list(result.ribs.warnings),
                "timings_s": result.timings_s}
@@ -140,8 +123,7 @@ def write_envelope(result, out: Path) -> list[Path]:
         if size:
             fig.set_size_inches(*size)
         fig.tight_layout()
-        _save(fig, out, stem, written)
-        plt.close(fig)
+        written += save_figure(fig, out, stem, ("png", "svg"))
     pe.add_envelope_page(out / "envelope.pdf", result)
     written.append(out / "envelope.pdf")
     return written
@@ -149,14 +131,18 @@ def write_envelope(result, out: Path) -> list[Path]:
 
 def run(args) -> int:
     spec = load_machine(args.machine)
-    settings = envelope_settings(spec, map_points=args.points, map_positions=args.positions,
+    if args.positions is not None:  # the mesh is made for the count asked for
+        raw = spec.raw
+        raw.setdefault("drive", {})["flux_map_positions"] = args.positions
+        spec = machine_from_dict(raw, spec.base_dir)
+    settings = envelope_settings(spec, map_points=args.points,
                                  map_max_current_A=args.max_current_A,
                                  speed_points=args.speed_points, loss_samples=args.loss_samples)
     progress = Progress()
     result = envelope_study(spec, settings, workers=args.workers, progress=progress)
     progress("writing tables and figures")
     written = write_envelope(result, Path(args.out))
-    progress.done()
+    progress.close()
     s, r = result.summary, result.summary["rated"]
     print(f"{spec.name}: base speed {s['base_speed_rpm']:.0f} rpm at "
           f"{s['base_torque_Nm']:.1f} N·m ({s['current_limit_peak_A']:g} A peak, "

@@ -9,8 +9,9 @@ import shutil
 from pathlib import Path
 
 from ..evaluate import StudySettings, evaluate
-from ..spec import load_machine
-from .progress import Progress
+from ..figures import save_figure
+from ..spec import load_machine, replace_path
+from ..sweep.progress import Progress
 
 __all__ = ["add_args", "run", "write_evaluation"]
 
@@ -40,20 +41,9 @@ def add_args(parser) -> None:
                         help="processes for independent studies (default: the core count)")
 
 
-def _save(fig, out: Path, stem: str) -> list[Path]:
-    """The figure as PNG and PDF; closes it."""
-    import matplotlib.pyplot as plt
-
-    paths = [out / f"{stem}.{suffix}" for suffix in ("png", "pdf")]
-    for path in paths:
-        fig.savefig(path, dpi=170)
-    plt.close(fig)
-    return paths
-
-
 def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
     """summary.json, a copy of the machine file and the CSV tables."""
-    from ..report import CAUTION
+    from ..figures import CAUTION
     from ..tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
 
     summary = {**evaluation.summary, "caution": CAUTION}
@@ -85,7 +75,7 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
             fig, ax = plt.subplots(figsize=(7, 4.3))
             plot(data, ax=ax)
             fig.tight_layout()
-            written += _save(fig, out, stem)
+            written += save_figure(fig, out, stem, dpi=170)
     return written
 
 
@@ -102,11 +92,11 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
     ax.set_title(f"Field at the rated point: {s['current_peak_A']:g} A peak, "
                  f"γ = {s['current_angle_deg']:.1f} deg, rotor position 0", fontsize=10)
     fig.tight_layout()
-    written = _save(fig, out, "field_rated")
+    written = save_figure(fig, out, "field_rated", dpi=170)
     fig, ax = plt.subplots(figsize=(11, 3.2))
     plot_winding_layout(evaluation.model.layout, ax=ax)
     fig.tight_layout()
-    return written + _save(fig, out, "winding_layout")
+    return written + save_figure(fig, out, "winding_layout", dpi=170)
 
 
 def _write_sheet(evaluation, out: Path, envelope) -> list[Path]:
@@ -143,7 +133,7 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
 def run(args) -> int:
     spec = load_machine(args.machine)
     if args.positions is not None:
-        spec = spec.replace_path("mesh.averaging_positions", args.positions)
+        spec = replace_path(spec, "mesh.averaging_positions", args.positions)
     settings = StudySettings(studies=args.studies, angle_step_deg=args.angle_step_deg,
                              inductance_points=args.inductance_points)
     progress = Progress()
@@ -157,7 +147,7 @@ def run(args) -> int:
                                   progress=progress, operating=evaluation.operating_points())
     progress("writing tables, figures and review.pdf")
     written = write_evaluation(evaluation, Path(args.out), Path(args.machine), envelope)
-    progress.done()
+    progress.close()
     s = evaluation.summary
     print(f"{spec.name}: apparent Ld {s['Ld_apparent_H'] * 1e3:.2f} mH, Lq "
           f"{s['Lq_apparent_H'] * 1e3:.2f} mH, saliency {s['saliency_apparent']:.2f} "

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from ..figures import save_figure
 from ..mesh import build_mesh
 from ..spec import load_machine
 
@@ -56,10 +57,7 @@ def run(args) -> int:
     n_nodes, n_el = machine_mesh.mesh.p.shape[1], machine_mesh.mesh.t.shape[1]
     ax.set_title(f"{spec.name}: modelled sector, {n_nodes} nodes, {n_el} triangles")
     fig.tight_layout()
-    for suffix in ("png", "svg"):
-        fig.savefig(out / f"mesh.{suffix}", dpi=150)
-        written.append(out / f"mesh.{suffix}")
-    plt.close(fig)
+    written += save_figure(fig, out, "mesh", ("png", "svg"))
     for path in written:
         print(f"wrote {path}")
     return 0

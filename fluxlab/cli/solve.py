@@ -7,6 +7,7 @@ import math
 from pathlib import Path
 
 from ..dq import power_factor
+from ..figures import save_figure
 from ..model import build_model, rotor_step
 from ..operating_point import solve_point
 from ..spec import load_machine
@@ -76,9 +77,7 @@ def run(args) -> int:
     ax.set_title(f"{spec.name}: {args.current_A:g} A peak, γ = {args.current_angle_deg:g} deg, "
                  f"position {math.degrees(point.position):.2f} deg", fontsize=10)
     fig.tight_layout()
-    for suffix in ("png", "pdf"):
-        fig.savefig(out / f"field.{suffix}", dpi=170)
-    plt.close(fig)
+    save_figure(fig, out, "field", dpi=170)
     print(f"torque {record['torque_maxwell_Nm']:.3f} N·m (Maxwell), "
           f"{record['torque_dq_Nm']:.3f} N·m (dq); psi_d {record['psi_d_Wb']:.4f} Wb, "
           f"psi_q {record['psi_q_Wb']:.4f} Wb; {record['newton_iterations']} Newton steps")

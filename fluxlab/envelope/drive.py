@@ -17,7 +17,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..dq import dq_torque
-from ..errors import SpecError
 from .fluxmap import FluxMap
 from .interp import FluxInterpolator
 from .mtpa import mtpa_point
@@ -45,9 +44,9 @@ def phase_voltage_limit(dc_link_voltage_V: float, modulation_limit: float = 1.0)
     IEEE Press / Wiley 2003, ch. 3; chapter from memory).
     """
     if not (math.isfinite(dc_link_voltage_V) and dc_link_voltage_V > 0):
-        raise SpecError(f"dc_link_voltage_V = {dc_link_voltage_V!r}: must be > 0")
+        raise ValueError(f"dc_link_voltage_V = {dc_link_voltage_V!r}: must be > 0")
     if not (math.isfinite(modulation_limit) and 0 < modulation_limit <= 1):
-        raise SpecError(f"modulation_limit = {modulation_limit!r}: must be in (0, 1]")
+        raise ValueError(f"modulation_limit = {modulation_limit!r}: must be in (0, 1]")
     return modulation_limit * dc_link_voltage_V / math.sqrt(3)
 
 
@@ -192,7 +191,7 @@ def torque_speed_envelope(
     if speeds.ndim != 1 or speeds.size < 1 or not np.all(np.isfinite(speeds) & (speeds >= 0)):
         problems.append(f"speeds_rpm = {speeds_rpm!r}: must be finite values >= 0")
     if problems:
-        raise SpecError(problems)
+        raise ValueError("; ".join(problems))
     interp, p = FluxInterpolator(fmap), fmap.pole_pairs
     gamma = mtpa_point(interp, current_limit_A)
     i_d, i_q = current_limit_A * math.cos(gamma), current_limit_A * math.sin(gamma)

@@ -17,7 +17,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..dq import dq_torque
-from ..errors import SpecError
 
 __all__ = [
     "FluxMap",
@@ -72,9 +71,9 @@ class FluxMap:
 def current_grid(max_current_A: float, points: int) -> np.ndarray:
     """``points`` equally spaced currents from 0 to ``max_current_A`` (peak A)."""
     if not (isinstance(points, int) and points >= 2):
-        raise SpecError(f"flux map points = {points!r}: must be an integer of at least 2")
+        raise ValueError(f"flux map points = {points!r}: must be an integer of at least 2")
     if not (math.isfinite(max_current_A) and max_current_A > 0):
-        raise SpecError(f"flux map max current = {max_current_A!r} A: must be > 0 and finite")
+        raise ValueError(f"flux map max current = {max_current_A!r} A: must be > 0 and finite")
     return np.linspace(0.0, float(max_current_A), points)
 
 
@@ -92,7 +91,7 @@ def flux_map_from_arrays(i_d_A, i_q_A, psi_d_Wb, psi_q_Wb, pole_pairs: int,
         if table.shape != shape or not np.all(np.isfinite(table)):
             problems.append(f"flux map {name}: shape {table.shape}, must be finite {shape}")
     if problems:
-        raise SpecError(problems)
+        raise ValueError("; ".join(problems))
     torque = np.full(shape, np.nan) if torque_Nm is None else np.asarray(torque_Nm, float)
     return FluxMap(i_d, i_q, psi_d, psi_q, torque, int(pole_pairs), int(positions))
 

@@ -30,14 +30,12 @@ class FluxInterpolator:
 
     def psi(self, i_d, i_q) -> tuple[np.ndarray, np.ndarray]:
         """(psi_d, psi_q), Wb, at currents of any equal shapes (peak A)."""
-        from ..errors import SpecError
-
         i_d, i_q = np.broadcast_arrays(np.asarray(i_d, float), np.asarray(i_q, float))
         tol = 1e-9 * max(self.fmap.i_d_A[-1], self.fmap.i_q_A[-1])
         if (i_d.min(initial=0) < -tol or i_q.min(initial=0) < -tol
                 or i_d.max(initial=0) > self.fmap.i_d_A[-1] + tol
                 or i_q.max(initial=0) > self.fmap.i_q_A[-1] + tol):
-            raise SpecError(
+            raise ValueError(
                 f"current (id up to {i_d.max():.4g} A, iq up to {i_q.max():.4g} A) outside the "
                 f"flux map grid [0, {self.fmap.i_d_A[-1]:.4g}] x [0, {self.fmap.i_q_A[-1]:.4g}] A"
             )

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..averaging import equally_spaced_steps
-from ..errors import MaterialError, SpecError
+from ..errors import MaterialError
 
 __all__ = [
     "RegionLoss",
@@ -91,7 +91,7 @@ def harmonic_ellipses(b: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray
     """
     b = np.asarray(b, dtype=float)
     if b.ndim != 3 or b.shape[2] != 2 or b.shape[0] < 2:
-        raise SpecError(f"flux density waveforms: shape {b.shape}, need (samples >= 2, n, 2)")
+        raise ValueError(f"flux density waveforms: shape {b.shape}, need (samples >= 2, n, 2)")
     n = b.shape[0]
     spectrum = np.fft.rfft(b, axis=0) / n
     spectrum[1:] *= 2.0
@@ -137,7 +137,7 @@ def region_losses(
     steel mass is density x area x length x k_s.
     """
     if not (math.isfinite(frequency_Hz) and frequency_Hz >= 0):
-        raise SpecError(f"frequency = {frequency_Hz!r} Hz: must be finite and >= 0")
+        raise ValueError(f"frequency = {frequency_Hz!r} Hz: must be finite and >= 0")
     out = []
     for name, (elements, material) in regions.items():
         if material.loss is None:
@@ -167,7 +167,7 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
     mesh = model.mesh
     half = mesh.edge_sign == -1 and math.isclose(mesh.sector_angle, math.pi / p, rel_tol=1e-9)
     if samples < 4:
-        raise SpecError(f"iron loss samples = {samples}: need at least 4 per period")
+        raise ValueError(f"iron loss samples = {samples}: need at least 4 per period")
     count = next(n for n in range(samples, period + 1) if period % n == 0)
     if half and count % 2:
         count = next(n for n in range(count + 1, period + 1) if period % n == 0 and n % 2 == 0)

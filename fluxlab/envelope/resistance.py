@@ -5,8 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..errors import SpecError
-from ..spec import MachineSpec
+from ..spec_types import MachineSpec
 
 __all__ = [
     "COPPER_RESISTIVITY_20C_OHM_M",
@@ -49,7 +48,7 @@ class PhaseResistance:
 def copper_resistivity(temperature_C: float) -> float:
     """Resistivity of annealed copper, Ohm m: rho20 (1 + alpha (T - 20 C)) (IEC 60028)."""
     if not (math.isfinite(temperature_C) and -200.0 < temperature_C < 400.0):
-        raise SpecError(f"copper temperature = {temperature_C!r} C: must be in (-200, 400)")
+        raise ValueError(f"copper temperature = {temperature_C!r} C: must be in (-200, 400)")
     return COPPER_RESISTIVITY_20C_OHM_M * (
         1.0 + COPPER_TEMPERATURE_COEFFICIENT_PER_K * (temperature_C - 20.0))
 
@@ -87,7 +86,7 @@ def phase_resistance(
     temperature = spec.drive.copper_temperature_C if temperature_C is None else temperature_C
     given = spec.drive.end_winding_length if end_winding_length is None else end_winding_length
     if given is not None and not (math.isfinite(given) and given > 0):
-        raise SpecError(f"end-winding length = {given!r} m: must be > 0")
+        raise ValueError(f"end-winding length = {given!r} m: must be > 0")
     end = end_winding_length_estimate(spec) if given is None else given
     layer_area = to_shapely(slot_shapes(spec.stator, w.layers)["layer_0"]).area
     conductor = w.fill_factor * layer_area / w.turns_per_coil

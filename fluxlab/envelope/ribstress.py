@@ -19,7 +19,7 @@ import math
 from dataclasses import dataclass
 
 from ..errors import SpecError
-from ..spec import MachineSpec
+from ..spec_types import MachineSpec
 
 __all__ = ["RIB_CAUTION", "BarrierStress", "RibStress", "outer_steel", "rib_stress"]
 
@@ -144,7 +144,7 @@ def rib_stress(spec: MachineSpec, speed_rpm: float | None = None,
     if not (math.isfinite(factor) and factor >= 1):
         problems.append(f"rib safety factor = {factor!r}: must be at least 1")
     if problems:
-        raise SpecError(problems)
+        raise ValueError("; ".join(problems))
     steel = spec.materials["rotor"]
     omega = speed * 2 * math.pi / 60
     allowed = steel.yield_strength_Pa / factor

@@ -11,9 +11,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..averaging import averaging_positions
-from ..errors import MaterialError, SpecError
+from ..errors import MaterialError
 from ..operating_point import AveragedPoint, OperatingPoints
-from ..spec import MachineSpec
+from ..spec_types import MachineSpec
 from .drive import Envelope, phase_voltage_limit, torque_speed_envelope
 from .fluxmap import FluxMap, current_grid, flux_map
 from .ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
@@ -68,7 +68,7 @@ class EnvelopeSettings:
             problems.append(f"flux map points = {self.map_points}, positions = "
                             f"{self.map_positions}: need at least 2 and 1")
         if problems:
-            raise SpecError(problems)
+            raise ValueError("; ".join(problems))
 
 
 def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:

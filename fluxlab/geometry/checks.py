@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 
 from ..errors import GeometryError
-from ..spec import MachineSpec
+from ..spec_types import MachineSpec
 from .csg import disk, to_shapely
 from .rotor import barrier_shape
 from .stator import slot_outline

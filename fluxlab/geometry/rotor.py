@@ -32,7 +32,7 @@ import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
 from ..errors import GeometryError
-from ..spec import BarrierSpec, RotorSpec
+from ..spec_types import BarrierSpec, RotorSpec
 from .csg import Shape, cut, disk, intersect, polygon
 
 __all__ = [

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from ..spec import MachineSpec
+from ..spec_types import MachineSpec
 from .csg import Shape, annular_sector, cut, rotate
 from .rotor import barrier_shape, post_shape
 from .stator import slot_shapes

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..spec import StatorSpec
+from ..spec_types import StatorSpec
 from .csg import Shape, cut, disk, intersect, polygon, union
 
 __all__ = ["SlotOutline", "slot_outline", "slot_shapes"]

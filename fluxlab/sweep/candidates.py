@@ -73,7 +73,7 @@ def candidate_key(machine: dict, studies: str, evaluator: str | None = None,
                   base_dir: Path | None = None) -> str:
     """The content key (64 hex digits) of a machine table evaluated with ``studies``;
     ``base_dir`` is where the machine's relative file references start."""
-    from .. import __version__
+    from ..version import __version__
 
     content = {"machine": machine, "studies": studies, "fluxlab_version": __version__,
                "source": source_digest(), "files": _file_digests(machine, base_dir)}

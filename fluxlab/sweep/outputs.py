@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import SpecError
+from ..figures import save_figure
 from .store import STORE_NAME, ResultStore
 from .sweepfile import SweepSpec
 
@@ -91,14 +92,9 @@ def write_sweep_outputs(sweep: SweepSpec, rows: Sequence[dict], out_dir: str | P
     plot_pareto(rows, ax=ax)
     ax.set_title(f"{sweep.name}: {ax.get_title()}", fontsize=10)
     fig.tight_layout()
-    for suffix in ("png", "svg"):
-        fig.savefig(out / f"pareto.{suffix}", dpi=150)
-        written.append(out / f"pareto.{suffix}")
-    plt.close(fig)
-    fig = plot_parameters(rows, [p.path for p in sweep.parameters])
-    fig.savefig(out / "parameters.png", dpi=150)
-    plt.close(fig)
-    written.append(out / "parameters.png")
+    written += save_figure(fig, out, "pareto", ("png", "svg"))
+    written += save_figure(plot_parameters(rows, [p.path for p in sweep.parameters]), out,
+                           "parameters", ("png",))
     with ResultStore(out / STORE_NAME) as store:
         entries = compare_entries(best_rows(rows, best), store, sweep.base_dir)
     written.append(write_compare_pdf(entries, out / "compare.pdf",

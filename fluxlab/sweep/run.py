@@ -11,7 +11,6 @@ import logging
 from collections.abc import Callable
 from pathlib import Path
 
-from ..errors import SpecError
 from .candidates import DEFAULT_EVALUATOR, Candidate, make_candidates
 from .executors import DaskExecutor, Executor, LocalPoolExecutor
 from .progress import ProgressBar
@@ -39,8 +38,8 @@ def evaluator_reference(evaluator: str | Callable | None, sweep: SweepSpec) -> s
     except (ImportError, AttributeError):
         ok = False
     if not ok:
-        raise SpecError(f"evaluator = {evaluator!r}: must be a function importable as "
-                        "module:function (worker processes import it by name)")
+        raise ValueError(f"evaluator = {evaluator!r}: must be a function importable as "
+                         "module:function (worker processes import it by name)")
     return ref
 
 
@@ -107,6 +106,8 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
     ------
     SpecError
         The sweep file is invalid.
+    ValueError
+        An ``evaluator`` function that worker processes cannot import by name.
     KeyboardInterrupt
         On Ctrl-C, after cancelling what had not finished; finished results stay stored and
         ``results.csv`` lists the rest as pending.

@@ -111,7 +111,7 @@ class ResultStore:
 
         A replaced row keeps its ``created_at`` and counts one more attempt.
         """
-        from .. import __version__
+        from ..version import __version__
 
         if status not in STATUSES:
             raise ValueError(f"status = {status!r}: must be one of {', '.join(STATUSES)}")

@@ -8,10 +8,10 @@ the content key.
 
 from __future__ import annotations
 
-import csv
 from collections.abc import Sequence
 from pathlib import Path
 
+from ..tables import write_csv
 from .candidates import Candidate
 from .store import StoredResult
 
@@ -55,21 +55,15 @@ def results_table(candidates: Sequence[Candidate], stored: dict[str, StoredResul
     return rows
 
 
-def _cell(value) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, str):  # validation messages are "- a\n- b": one line in the CSV
+def _text(value):
+    # validation messages are "- a\n- b": one line in the CSV
+    if isinstance(value, str):
         return value.replace("\n- ", "; ").removeprefix("- ").replace("\n", " ")
-    return str(value)
+    return value
 
 
 def write_results_csv(rows: Sequence[dict], path: str | Path) -> Path:
-    """Write the results table as CSV (empty cells for missing values); returns the path."""
-    path = Path(path)
+    """Write the results table as CSV (empty cells for missing values, numbers as Python
+    prints them, so they read back exactly); returns the path."""
     fields = list(rows[0]) if rows else ["candidate", "status", "message", "key"]
-    with path.open("w", newline="", encoding="utf-8") as f:
-        writer = csv.writer(f)
-        writer.writerow(fields)
-        for row in rows:
-            writer.writerow([_cell(row.get(k)) for k in fields])
-    return path
+    return write_csv(path, {k: [_text(row.get(k)) for row in rows] for k in fields}, exact=True)

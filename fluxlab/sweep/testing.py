@@ -70,7 +70,7 @@ def _burn(rounds: int) -> None:
 
 def fake_summary(spec, studies: str) -> dict:
     """The made-up summary of a machine (see the module docstring)."""
-    from .. import __version__
+    from ..version import __version__
 
     widths_mm = sum(b.width for b in spec.rotor.barriers) * 1e3
     ends_deg = sum(math.degrees(b.end_angle) for b in spec.rotor.barriers)

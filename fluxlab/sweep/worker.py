@@ -109,6 +109,7 @@ def evaluate_task(task: dict) -> dict:
     except SpecError as err:  # GeometryError and WindingError too: the machine is invalid
         out.update(status="rejected", message=str(err))
     except Exception as err:  # noqa: BLE001 - a failed candidate must not stop the sweep
+        # not the machine file's fault (a solver failure, a mesher error, a bug): retryable
         out.update(status="failed", message=f"{type(err).__name__}: {err}")
         log.debug("candidate %s failed", task["key"], exc_info=True)
     out["elapsed_s"] = time.perf_counter() - start
