@@ -34,7 +34,7 @@ def main() -> None:
 
     import fluxlab
     from fluxlab.cli.evaluate import write_evaluation
-    from fluxlab.solver import linear_backend
+    from fluxlab.fem.solver import linear_backend
 
     start = time.perf_counter()
     with threadpool_limits(limits=1):

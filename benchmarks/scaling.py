@@ -22,11 +22,11 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads (MEASUR
 
 import numpy as np  # noqa: E402
 
-from fluxlab import linsolve  # noqa: E402
-from fluxlab.model import build_model, current_density, phase_currents  # noqa: E402
-from fluxlab.solver import linear_backend, solve_field  # noqa: E402
-from fluxlab.spec import load_machine, replace_path  # noqa: E402
-from fluxlab.studies import ripple_steps  # noqa: E402
+from fluxlab.fem import linsolve  # noqa: E402
+from fluxlab.fem.solver import linear_backend, solve_field  # noqa: E402
+from fluxlab.machine.model import build_model, current_density, phase_currents  # noqa: E402
+from fluxlab.spec.machine_file import load_machine, replace_path  # noqa: E402
+from fluxlab.studies.curves import ripple_steps  # noqa: E402
 
 DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 

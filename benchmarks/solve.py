@@ -38,11 +38,14 @@ import numpy as np  # noqa: E402
 import scipy  # noqa: E402
 import skfem  # noqa: E402
 
-from fluxlab import assembly, linsolve  # noqa: E402
-from fluxlab.model import build_model, current_density, phase_currents  # noqa: E402
-from fluxlab.solver import _prepared, linear_backend, solve_field  # noqa: E402
-from fluxlab.spec import load_machine  # noqa: E402
-from fluxlab.studies import ripple_steps  # noqa: E402
+from fluxlab.fem import (
+    assembly,  # noqa: E402
+    linsolve,
+)
+from fluxlab.fem.solver import _prepared, linear_backend, solve_field  # noqa: E402
+from fluxlab.machine.model import build_model, current_density, phase_currents  # noqa: E402
+from fluxlab.spec.machine_file import load_machine  # noqa: E402
+from fluxlab.studies.curves import ripple_steps  # noqa: E402
 
 DEMO = Path(__file__).resolve().parents[1] / "geometries" / "demo_fan_drive.toml"
 

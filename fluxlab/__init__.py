@@ -7,7 +7,7 @@ The names a script needs::
     result = evaluate(spec)                  # all studies, no files
 """
 
-from .errors import (
+from fluxlab.errors import (
     ConvergenceError,
     FluxlabError,
     GeometryError,
@@ -16,19 +16,19 @@ from .errors import (
     SpecError,
     WindingError,
 )
-from .evaluate import Evaluation, StudySettings, evaluate
-from .mesh import build_mesh
-from .model import build_model
-from .operating_point import averaged_point, solve_point
-from .solver import solve_field
-from .spec import load_machine, machine_from_dict, replace_path
-from .studies import (
+from fluxlab.fem.solver import solve_field
+from fluxlab.machine.model import build_model
+from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.spec.machine_file import load_machine, machine_from_dict, replace_path
+from fluxlab.studies.curves import (
     inductance_curves,
     torque_vs_current_angle,
     torque_vs_position,
 )
-from .sweep import run_sweep
-from .version import __version__
+from fluxlab.studies.evaluate import Evaluation, StudySettings, evaluate
+from fluxlab.studies.operating_point import averaged_point, solve_point
+from fluxlab.sweep import run_sweep
+from fluxlab.version import __version__
 
 __all__ = [
     "__version__",

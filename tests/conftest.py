@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 from paths import DEMO, GEOMETRIES, demo_table
 
-from fluxlab.spec import MachineSpec, load_machine
+from fluxlab.spec.machine_file import MachineSpec, load_machine
 
 
 @pytest.fixture(scope="session")

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from paths import GEOMETRIES, demo_table
 
-from fluxlab.spec import machine_from_dict
+from fluxlab.spec.machine_file import machine_from_dict
 
 #: name -> (poles, slots, coil pitch in slots, tooth width mm, slot opening mm, barriers or
 #: None for the demo's, steps per slot: the ripple count, which is also the dense reference)

@@ -16,7 +16,7 @@ import gmsh
 import numpy as np
 from skfem import MeshTri
 
-from fluxlab.mesh import MachineMesh
+from fluxlab.mesh.machine_mesh import MachineMesh
 
 #: OpenCASCADE pads every bounding box by this much, m (seen with gmsh 4.15).
 _OCC_BOX_MARGIN = 1e-7

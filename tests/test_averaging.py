@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from layouts import LAYOUTS, layout_spec
 
-from fluxlab.averaging import (
+from fluxlab.studies.averaging import (
     averaging_steps,
     default_positions,
     division_unit,
@@ -106,9 +106,9 @@ def _dense_count(model, at_least: int) -> int:
 def layout(request):
     """A layout's model, its dense reference at the rated point, and the figures under test."""
     from fluxlab.envelope import envelope_settings, envelope_study
-    from fluxlab.evaluate import evaluate
-    from fluxlab.model import build_model
-    from fluxlab.studies import ripple_steps, solve_positions
+    from fluxlab.machine.model import build_model
+    from fluxlab.studies.curves import ripple_steps, solve_positions
+    from fluxlab.studies.evaluate import evaluate
 
     spec = layout_spec(request.param)
     model = build_model(spec)
@@ -147,7 +147,7 @@ def test_quick_mode_and_envelope_torque_match_the_dense_mean(layout):
 
 @pytest.mark.slow
 def test_mtpa_angle_matches_a_quarter_degree_scan_of_the_reference(layout):
-    from fluxlab.operating_point import solve_point
+    from fluxlab.studies.operating_point import solve_point
 
     mtpa = layout.envelope.operating.mtpa[RATED_A]
     model, starts, torque = layout.model, {}, {}
@@ -173,8 +173,8 @@ def test_mtpa_angle_matches_a_quarter_degree_scan_of_the_reference(layout):
 
 @pytest.mark.slow
 def test_one_axis_lq_matches_the_dense_mean(layout):
-    from fluxlab.operating_point import averaged_point
-    from fluxlab.studies import inductance_curves
+    from fluxlab.studies.curves import inductance_curves
+    from fluxlab.studies.operating_point import averaged_point
 
     curve = inductance_curves(layout.model, [RATED_A], axes=("q",))
     dense = averaged_point(layout.model, RATED_A, math.pi / 2, layout.reference_steps)

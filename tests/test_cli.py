@@ -102,7 +102,7 @@ def test_missing_file_is_a_clear_error(tmp_path, capsys):
 
 
 def test_csv_writer_numbers_text_and_comment(tmp_path):
-    from fluxlab.tables import write_csv
+    from fluxlab.report.tables import write_csv
 
     grid = np.array([[0.1, 2.0], [1 / 3, 12345678901.0]])
     path = write_csv(tmp_path / "t.csv", {"x_mm": grid, "part": ["a", "b,c", "d", None]},
@@ -121,7 +121,7 @@ def test_figures_are_saved_in_each_format_and_closed(tmp_path):
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from fluxlab.figures import save_figure
+    from fluxlab.report.figures import save_figure
 
     fig, ax = plt.subplots()
     ax.plot([0, 1], [1, 0])

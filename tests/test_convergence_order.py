@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 from skfem import Basis, ElementTriP1, ElementTriP2, MeshTri
 
-from fluxlab.materials import MU0, linear_material
-from fluxlab.solver import make_problem, solve_field
+from fluxlab.fem.solver import make_problem, solve_field
+from fluxlab.materials.material import MU0, linear_material
 
 U0 = 1e-3  # amplitude of the manufactured potential, Wb/m
 MU_R = 1.0

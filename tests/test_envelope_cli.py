@@ -13,7 +13,6 @@ from hypothesis import strategies as st
 
 from fluxlab.cli import main
 from fluxlab.cli.envelope import write_envelope
-from fluxlab.dq import power_factor
 from fluxlab.envelope import (
     envelope_settings,
     flux_map_from_arrays,
@@ -25,8 +24,9 @@ from fluxlab.envelope import (
 from fluxlab.envelope.ironloss import IronLoss, RegionLoss
 from fluxlab.envelope.study import EnvelopeResult, _rated_point, _summary
 from fluxlab.errors import SpecError
-from fluxlab.operating_point import AveragedPoint, OperatingPoints
-from fluxlab.spec import load_machine, machine_from_dict
+from fluxlab.machine.dq import power_factor
+from fluxlab.spec.machine_file import load_machine, machine_from_dict
+from fluxlab.studies.operating_point import AveragedPoint, OperatingPoints
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 DEMO = GEOMETRIES / "demo_fan_drive.toml"

@@ -12,10 +12,10 @@ from paths import DEMO
 
 from fluxlab.envelope import flux_map, incremental_inductances, mtpa_trajectory
 from fluxlab.envelope.ironloss import sweep_steps
-from fluxlab.model import build_model
-from fluxlab.operating_point import solve_point
-from fluxlab.spec import load_machine, replace_path
-from fluxlab.studies import inductance_curves
+from fluxlab.machine.model import build_model
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.curves import inductance_curves
+from fluxlab.studies.operating_point import solve_point
 
 LINEAR_STEEL = {"linear_mu_r": 2000.0}
 

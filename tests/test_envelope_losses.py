@@ -15,9 +15,9 @@ from fluxlab.envelope.ironloss import (
 )
 from fluxlab.envelope.resistance import copper_resistivity, phase_resistance
 from fluxlab.errors import MaterialError, SpecError
-from fluxlab.materials import builtin_material, linear_material
-from fluxlab.spec import load_machine, machine_from_dict
-from fluxlab.steels import GRADES
+from fluxlab.materials.material import builtin_material, linear_material
+from fluxlab.materials.steels import GRADES
+from fluxlab.spec.machine_file import load_machine, machine_from_dict
 
 
 def _rectangular_slot_machine():

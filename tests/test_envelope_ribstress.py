@@ -9,7 +9,7 @@ from paths import DEMO, GEOMETRIES
 
 from fluxlab.envelope.ribstress import RIB_CAUTION, rib_stress
 from fluxlab.errors import SpecError
-from fluxlab.spec import load_machine, machine_from_dict
+from fluxlab.spec.machine_file import load_machine, machine_from_dict
 
 
 def _one_barrier(post_mm=0.0):

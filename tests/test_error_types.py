@@ -14,7 +14,7 @@ from types import SimpleNamespace
 import pytest
 
 from fluxlab.errors import ConvergenceError, FluxlabError, GeometryError, SpecError
-from fluxlab.spec import machine_from_dict
+from fluxlab.spec.machine_file import machine_from_dict
 from fluxlab.sweep.worker import evaluate_task
 
 if sys.version_info >= (3, 11):
@@ -40,7 +40,7 @@ def _stand_in_model():
 
 # ------------------------------------------------------------------------ library calls
 def test_study_with_zero_positions_is_a_value_error_not_a_spec_error():
-    from fluxlab.studies import torque_vs_current_angle
+    from fluxlab.studies.curves import torque_vs_current_angle
 
     with pytest.raises(ValueError, match="positions = 0: must be a whole number") as info:
         torque_vs_current_angle(_stand_in_model(), 10.0, positions=0)
@@ -57,7 +57,7 @@ def test_machine_file_value_is_still_a_spec_error_naming_key_value_and_limit():
 
 def test_envelope_settings_from_python_are_value_errors():
     from fluxlab.envelope import envelope_settings
-    from fluxlab.spec import load_machine
+    from fluxlab.spec.machine_file import load_machine
 
     with pytest.raises(ValueError, match="flux map points = 1") as info:
         envelope_settings(load_machine(DEMO), map_points=1)

@@ -10,19 +10,19 @@ import numpy as np
 import pytest
 from paths import GEOMETRIES
 
-from fluxlab.dq import power_factor
-from fluxlab.evaluate import StudySettings, evaluate
-from fluxlab.model import build_model, current_density, phase_currents, rotor_step
-from fluxlab.operating_point import solve_point
-from fluxlab.post import machine_energy, torque_maxwell
-from fluxlab.solver import solve_field
-from fluxlab.spec import load_machine, replace_path
-from fluxlab.studies import (
+from fluxlab.fem.solver import solve_field
+from fluxlab.machine.dq import power_factor
+from fluxlab.machine.model import build_model, current_density, phase_currents, rotor_step
+from fluxlab.machine.post import machine_energy, torque_maxwell
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.curves import (
     inductance_curves,
     ripple_steps,
     torque_vs_current_angle,
     torque_vs_position,
 )
+from fluxlab.studies.evaluate import StudySettings, evaluate
+from fluxlab.studies.operating_point import solve_point
 
 LINEAR_STEEL = {"linear_mu_r": 2000.0}
 

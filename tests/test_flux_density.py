@@ -7,20 +7,20 @@ import numpy as np
 import pytest
 from paths import GEOMETRIES
 
-from fluxlab.flux_density import (
+from fluxlab.fem.solver import element_areas
+from fluxlab.geometry.csg import to_shapely, union
+from fluxlab.geometry.rotor import barrier_placement
+from fluxlab.geometry.stator import slot_shapes
+from fluxlab.machine.model import build_model
+from fluxlab.materials.material import MU0
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.flux_density import (
     region_elements,
     region_flux_densities,
     slot_bottom_radius,
     weighted_percentile,
 )
-from fluxlab.geometry.csg import to_shapely, union
-from fluxlab.geometry.rotor import barrier_placement
-from fluxlab.geometry.stator import slot_shapes
-from fluxlab.materials import MU0
-from fluxlab.model import build_model
-from fluxlab.operating_point import solve_point
-from fluxlab.solver import element_areas
-from fluxlab.spec import load_machine, replace_path
+from fluxlab.studies.operating_point import solve_point
 
 
 def _coarse(name):

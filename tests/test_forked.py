@@ -1,4 +1,4 @@
-"""Jobs run in a forked child and here (fluxlab.forked)."""
+"""Jobs run in a forked child and here (fluxlab.report.forked)."""
 
 from __future__ import annotations
 
@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from fluxlab.forked import run_jobs
+from fluxlab.report.forked import run_jobs
 
 pytestmark = pytest.mark.skipif(not hasattr(os, "fork"), reason="needs fork")
 

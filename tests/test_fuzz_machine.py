@@ -2,10 +2,10 @@
 with fluxlab's own error, never with another exception and never by hanging.
 
 Each drawn table goes to a separate worker process (``spawn``) that validates it with
-:func:`fluxlab.spec.machine_from_dict` and meshes it with :func:`fluxlab.mesh.build_mesh`
-on a coarse mesh. The worker runs under a hard wall-clock limit: a Python alarm cannot
-interrupt gmsh while it is inside its C++ mesher, killing a process can. A worker that
-crashes (a segfault inside gmsh) is also a failure.
+:func:`fluxlab.spec.machine_file.machine_from_dict` and meshes it with
+:func:`fluxlab.mesh.machine_mesh.build_mesh` on a coarse mesh. The worker runs under a
+hard wall-clock limit: a Python alarm cannot interrupt gmsh while it is inside its C++
+mesher, killing a process can. A worker that crashes (a segfault inside gmsh) is also a failure.
 
 Tables start from the demo machine's file and are varied: most draws are physically
 plausible so that a good share is meshed; some are mutated with wrong types, bad values,
@@ -68,7 +68,7 @@ def _r(x: float, digits: int = 2) -> float:
 def _good_slots(poles: int, bore_mm: float) -> list[int]:
     """Slot numbers a designer would try for ``poles`` and a bore: 6..72, a balanced
     three-phase star of slots, Q / (3 gcd(Q, p)) integer (the rule stated in
-    fluxlab.winding), a sector of at most half the machine, a slot pitch of 5 mm or more.
+    fluxlab.machine.winding), a sector of at most half the machine, a slot pitch of 5 mm or more.
 
     Only a bias towards valid machines; the validation itself decides.
     """
@@ -265,8 +265,8 @@ def evaluate(raw: dict) -> dict:
     :class:`fluxlab.errors.FluxlabError`.
     """
     from fluxlab.errors import FluxlabError
-    from fluxlab.mesh import build_mesh
-    from fluxlab.spec import machine_from_dict
+    from fluxlab.mesh.machine_mesh import build_mesh
+    from fluxlab.spec.machine_file import machine_from_dict
 
     def failed(stage: str, err: BaseException) -> dict:
         expected = isinstance(err, FluxlabError)
@@ -438,7 +438,7 @@ def _slot_body_area(st_: dict) -> tuple[float, float] | None:
 
 
 #: Chord loss of a curved slot boundary: gmsh is set to at least 12 elements per full
-#: circle (Mesh.MeshSizeFromCurvature in fluxlab.gmsh_part), and an inscribed regular
+#: circle (Mesh.MeshSizeFromCurvature in fluxlab.mesh.gmsh_part), and an inscribed regular
 #: 12-gon lacks 1 - 3/pi = 4.5 % of its disc (polygon area (n/2) sin(2 pi/n) R^2).
 CHORD_LOSS = 1 - 3 / math.pi
 
@@ -601,8 +601,8 @@ def _thin_post() -> dict:
 
 
 def _estimate_ratio(raw: dict) -> float:
-    from fluxlab.mesh import build_mesh, estimated_elements
-    from fluxlab.spec import machine_from_dict
+    from fluxlab.mesh.machine_mesh import build_mesh, estimated_elements
+    from fluxlab.spec.machine_file import machine_from_dict
 
     spec = machine_from_dict(raw, GEOMETRIES)
     machine = build_mesh(spec)
@@ -618,9 +618,9 @@ def test_element_estimate_tracks_the_demo_mesh():
 def test_thin_post_is_not_refused():
     # The first estimate (a disc per rib point) put the thin-post demo at 2.4e6 triangles
     # and refused it; gmsh makes about 90k (see the slow test below).
-    from fluxlab.mesh import MAX_ELEMENTS, estimated_elements
-    from fluxlab.spec import machine_from_dict
-    from fluxlab.winding import machine_symmetry
+    from fluxlab.machine.winding import machine_symmetry
+    from fluxlab.mesh.machine_mesh import MAX_ELEMENTS, estimated_elements
+    from fluxlab.spec.machine_file import machine_from_dict
 
     spec = machine_from_dict(_thin_post(), GEOMETRIES)
     _, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
@@ -641,7 +641,7 @@ def _demo_with_barrier(**barrier) -> dict:
 
 def _spec_problems(raw: dict) -> list[str]:
     from fluxlab.errors import SpecError
-    from fluxlab.spec import machine_from_dict
+    from fluxlab.spec.machine_file import machine_from_dict
 
     with pytest.raises(SpecError) as info:
         machine_from_dict(_coarse(raw), GEOMETRIES)

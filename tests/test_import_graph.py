@@ -10,9 +10,8 @@ every submodule would otherwise reach). Imports by string (``importlib.import_mo
 not seen. Cycles are the strongly connected components of more than one module (Tarjan,
 "Depth-first search and linear graph algorithms", SIAM J. Comput. 1(2), 1972).
 
-The limits (no cycles, at most 400 lines a module, at most 8 modules at the top level)
-are the targets of the restructuring issue "the tree reads like the pipeline"; the checks
-that fail today are strict xfails, so the marker must go once the target is met.
+The limits: no cycles, at most 400 lines a module, at most 8 modules at the top level (the
+rest lives in subpackages that follow the pipeline).
 """
 
 from __future__ import annotations
@@ -21,16 +20,11 @@ import ast
 import re
 from pathlib import Path
 
-import pytest
 from paths import REPO_ROOT
 
 PACKAGE = REPO_ROOT / "fluxlab"
-#: Targets of the restructuring issue ("the tree reads like the pipeline").
 MAX_MODULE_LINES = 400
 MAX_TOP_LEVEL_MODULES = 8
-RESTRUCTURING = pytest.mark.xfail(
-    strict=True, raises=AssertionError,
-    reason="restructuring in progress (issue: the tree reads like the pipeline)")
 
 #: (importing module, imported module) -> line numbers of the import statements
 Edges = dict[tuple[str, str], list[int]]
@@ -201,7 +195,7 @@ def test_relative_imports_resolve_to_submodules_or_the_package(tmp_path):
 
 # ------------------------------------------------------------------ fluxlab
 def test_the_fluxlab_graph_is_read():
-    # guards the xfails below against failing for a wrong reason (no package, no edges)
+    # guards the checks below against passing for a wrong reason (no package, no edges)
     modules = package_modules(PACKAGE)
     assert modules["fluxlab"] == PACKAGE / "__init__.py"
     # every module whose text imports from the package has an edge out of it
@@ -222,7 +216,6 @@ def test_no_fluxlab_module_exceeds_the_line_limit():
     assert {p: n for p, n in lines.items() if n > MAX_MODULE_LINES} == {}
 
 
-@RESTRUCTURING
 def test_fluxlab_top_level_is_short():
     top = sorted(p.name for p in PACKAGE.glob("*.py"))
     assert len(top) <= MAX_TOP_LEVEL_MODULES, f"{len(top)} modules at the top level: {top}"

@@ -14,11 +14,11 @@ import pytest
 from meshes_closed_form import centroids, sector_machine_mesh
 from scipy.sparse.linalg import spsolve
 
-from fluxlab import assembly, linsolve
 from fluxlab.errors import ConvergenceError, SpecError
-from fluxlab.materials import AIR, builtin_material
-from fluxlab.solver import make_problem, solve_field, step_tie_map
-from fluxlab.tiemap import reduced_pattern
+from fluxlab.fem import assembly, linsolve
+from fluxlab.fem.solver import make_problem, solve_field, step_tie_map
+from fluxlab.fem.tiemap import reduced_pattern
+from fluxlab.materials.material import AIR, builtin_material
 
 #: Linear solves: a direct solve of an SPD system with condition ~1e6 loses about 6
 #: digits of 16; 1e-9 relative leaves a margin (common practice, no source).
@@ -34,7 +34,7 @@ BACKENDS = ["scipy", pytest.param("pardiso", marks=needs_pardiso)]
 
 
 def plain_sparse_solve(matrix):
-    """Reference backend: no state, nothing shared with :mod:`fluxlab.linsolve`."""
+    """Reference backend: no state, nothing shared with :mod:`fluxlab.fem.linsolve`."""
     csc = matrix.tocsc()
     return lambda rhs: spsolve(csc, rhs)
 
@@ -140,7 +140,7 @@ def test_too_few_steps_fail_loudly_with_history(saturated):
 
 def test_backend_is_kept_per_problem(saturated):
     problem, J = saturated
-    from fluxlab.solver import linear_backend
+    from fluxlab.fem.solver import linear_backend
 
     assert linear_backend(problem, "scipy") is linear_backend(problem, "scipy")
     assert callable(linear_backend(problem, "auto"))

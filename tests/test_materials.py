@@ -1,4 +1,4 @@
-"""Tests of fluxlab.materials: B-H curves, nu(B^2), energy, built-in steels, loss model."""
+"""Tests of fluxlab.materials.material: B-H curves, nu(B^2), energy, built-in steels, loss model."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from fluxlab import steels
 from fluxlab.errors import MaterialError
-from fluxlab.material_files import material_from_csv, resolve_material
-from fluxlab.materials import (
+from fluxlab.materials import steels
+from fluxlab.materials.files import material_from_csv, resolve_material
+from fluxlab.materials.material import (
     AIR,
     BUILTIN_STEELS,
     MU0,
@@ -35,7 +35,7 @@ H_DATA = [0.0, 40.0, 100.0, 200.0, 500.0, 1500.0, 5000.0, 20000.0, 60000.0]
 B_DATA = [0.0, 0.25, 0.80, 1.15, 1.38, 1.52, 1.66, 1.86, 2.05]
 
 # EN 10106 minimum polarization J (T) at H = 2500, 5000, 10000 A/m, from memory; kept
-# here apart from fluxlab/steels.py so the check does not read the code under test.
+# here apart from fluxlab/materials/steels.py so the check does not read the code under test.
 EN10106_J_MIN = {
     "M270-35A": (1.49, 1.60, 1.70),
     "M330-50A": (1.49, 1.60, 1.70),
@@ -164,7 +164,7 @@ def test_decreasing_polarization_is_raised_to_running_max(caplog):
     # (common practice, no source), so the slope there is exactly mu0; a warning is logged.
     h = [0.0, 50.0, 200.0, 1000.0, 50000.0, 100000.0]
     b = [0.0, 0.5, 1.2, 1.45, 1.95, 1.99]  # 0.04 T over 50 kA/m < mu0 * 50 kA/m = 0.063 T
-    with caplog.at_level(logging.WARNING, logger="fluxlab.materials"):
+    with caplog.at_level(logging.WARNING, logger="fluxlab.materials.material"):
         material = bh_material("rounded", h, b)
     assert "running maximum" in caplog.text
     assert material.b_table[-1] == pytest.approx(1.95 + MU0 * 50000.0, rel=1e-12)

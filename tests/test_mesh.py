@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from paths import GEOMETRIES
 
-from fluxlab.mesh import build_mesh
-from fluxlab.spec import load_machine, replace_path
+from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.spec.machine_file import load_machine, replace_path
 
 AREA_TOL = 5e-3  # issue requirement: region areas within 0.5 %
 
@@ -238,7 +238,7 @@ def test_u_barrier_and_round_rotor_mesh():
 
 def test_inverted_or_degenerate_triangles_are_rejected():
     from fluxlab.errors import MeshError
-    from fluxlab.mesh import _check_elements
+    from fluxlab.mesh.machine_mesh import _check_elements
 
     points = np.array([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [2.0, 0.0]])
     _check_elements(points, np.array([[0, 1, 2]]))  # counter-clockwise: fine
@@ -257,7 +257,8 @@ def test_meshing_leaves_sigpipe_ignored():
 
     code = (
         "import os\n"
-        "from fluxlab.mesh import build_mesh\nfrom fluxlab.spec import load_machine, replace_path\n"
+        "from fluxlab.mesh.machine_mesh import build_mesh\n"
+        "from fluxlab.spec.machine_file import load_machine, replace_path\n"
         f"spec = load_machine({str(GEOMETRIES / 'demo_round_rotor.toml')!r})\n"
         "build_mesh(replace_path(spec, 'mesh.size_mm', 8.0))\n"
         "r, w = os.pipe()\nos.close(r)\n"

@@ -6,16 +6,16 @@ import numpy as np
 import pytest
 
 from fluxlab.errors import SpecError
-from fluxlab.model import (
+from fluxlab.fem.solver import element_areas
+from fluxlab.machine.model import (
     build_model,
     coil_side_current_density,
     current_density,
     phase_currents,
 )
-from fluxlab.operating_point import solve_point
-from fluxlab.solver import element_areas
-from fluxlab.spec import replace_path
-from fluxlab.winding import series_turns_per_phase
+from fluxlab.machine.winding import series_turns_per_phase
+from fluxlab.spec.machine_file import replace_path
+from fluxlab.studies.operating_point import solve_point
 
 
 @pytest.fixture(scope="module")
@@ -32,8 +32,8 @@ def test_position_zero_puts_the_d_axis_on_the_phase_a_axis(model):
     assert abs(aligned.psi_q) < 0.01 * abs(aligned.psi_d)
     quarter = round(math.pi / (2 * model.spec.poles) / model.step_angle)
     # a rotor turned by a quarter pole pitch with the currents NOT following it
-    from fluxlab.post import flux_linkage_abc, park
-    from fluxlab.solver import solve_field
+    from fluxlab.fem.solver import solve_field
+    from fluxlab.machine.post import flux_linkage_abc, park
 
     j = current_density(model, phase_currents(10.0, 0.0, 0.0))
     turned = solve_field(model.problem, j, model.axis_step + quarter)

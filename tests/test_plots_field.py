@@ -21,9 +21,11 @@ from matplotlib.tri import TriContourSet  # noqa: E402
 from shapely.geometry import LineString  # noqa: E402
 
 from fluxlab.errors import SpecError  # noqa: E402
+from fluxlab.fem.solver import solve_field  # noqa: E402
 from fluxlab.geometry.stator import slot_outline  # noqa: E402
-from fluxlab.model import build_model, current_density, phase_currents, rotor_step  # noqa: E402
-from fluxlab.plots_field import (  # noqa: E402
+from fluxlab.machine.model import build_model, current_density, phase_currents, rotor_step  # noqa: E402
+from fluxlab.machine.winding import machine_symmetry  # noqa: E402
+from fluxlab.report.plots.field import (  # noqa: E402
     _kind,
     flux_levels,
     outline_facets,
@@ -32,9 +34,7 @@ from fluxlab.plots_field import (  # noqa: E402
     plot_outline,
     rotor_copies,
 )
-from fluxlab.solver import solve_field  # noqa: E402
-from fluxlab.spec import load_machine, replace_path  # noqa: E402
-from fluxlab.winding import machine_symmetry  # noqa: E402
+from fluxlab.spec.machine_file import load_machine, replace_path  # noqa: E402
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
 MACHINES = sorted(p for p in GEOMETRIES.glob("*.toml") if not p.name.startswith("sweep"))

@@ -18,7 +18,7 @@ import pytest
 from paths import REPO_ROOT
 
 import fluxlab
-from fluxlab.spec import MachineSpec
+from fluxlab.spec.machine_file import MachineSpec
 
 README = REPO_ROOT / "README.md"
 #: The key the snippet changes and the value it sets (README.md, "The same from Python").
@@ -31,7 +31,7 @@ def python_blocks(markdown: str) -> list[str]:
 
 
 def _is_evaluate_call(node: ast.AST) -> bool:
-    """Whether a node is a call of ``evaluate`` (as ``fluxlab.evaluate`` or a bare name)."""
+    """Whether a node is a call of ``evaluate`` (as ``fluxlab.studies.evaluate`` or a bare name)."""
     if not isinstance(node, ast.Call):
         return False
     func = node.func
@@ -85,10 +85,10 @@ def test_python_blocks_takes_only_python_fences():
 
 def test_split_off_evaluation_drops_the_call_and_what_uses_its_result():
     code = ("import fluxlab\nspec = fluxlab.load_machine('m.toml')\n"
-            "result = fluxlab.evaluate(spec)\nprint(result.summary)\n"
+            "result = fluxlab.studies.evaluate(spec)\nprint(result.summary)\n"
             "other = fluxlab.replace_path(spec, 'a', 1)\n")
     kept, dropped = split_off_evaluation(code)
-    assert [ast.unparse(s) for s in dropped] == ["result = fluxlab.evaluate(spec)",
+    assert [ast.unparse(s) for s in dropped] == ["result = fluxlab.studies.evaluate(spec)",
                                                  "print(result.summary)"]
     assert len(kept) == 3
 

@@ -12,12 +12,12 @@ import pytest
 from paths import GEOMETRIES
 from skfem import MeshTri
 
-from fluxlab.mesh import MachineMesh, _facet_indices, build_mesh
-from fluxlab.model import build_model, current_density, phase_currents
-from fluxlab.operating_point import solve_point
-from fluxlab.post import flux_linkage_abc, machine_energy, torque_maxwell
-from fluxlab.solver import solve_field
-from fluxlab.spec import load_machine, replace_path
+from fluxlab.fem.solver import solve_field
+from fluxlab.machine.model import build_model, current_density, phase_currents
+from fluxlab.machine.post import flux_linkage_abc, machine_energy, torque_maxwell
+from fluxlab.mesh.machine_mesh import MachineMesh, _facet_indices, build_mesh
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.operating_point import solve_point
 
 
 def _coarse(name):

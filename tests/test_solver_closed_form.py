@@ -21,15 +21,15 @@ from meshes_closed_form import (
 from scipy import integrate
 
 from fluxlab.errors import ConvergenceError, FluxlabError, SpecError
-from fluxlab.materials import AIR, MU0, b_of_h, builtin_material, linear_material
-from fluxlab.solver import (
+from fluxlab.fem.solver import (
     element_areas,
     make_problem,
     region_integral_of_a,
     solve_field,
     solve_tied,
 )
-from fluxlab.tiemap import Tie, build_tie_map, match_points
+from fluxlab.fem.tiemap import Tie, build_tie_map, match_points
+from fluxlab.materials.material import AIR, MU0, b_of_h, builtin_material, linear_material
 
 # --- 1. Ampere's law around a round conductor --------------------------------------------
 

@@ -8,7 +8,7 @@ import pytest
 from paths import GEOMETRIES
 
 from fluxlab.errors import SpecError
-from fluxlab.spec import load_machine, machine_from_dict, replace_path
+from fluxlab.spec.machine_file import load_machine, machine_from_dict, replace_path
 
 
 def _broken(raw: dict, path: str, value) -> dict:

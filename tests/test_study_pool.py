@@ -1,4 +1,4 @@
-"""Studies in worker processes (fluxlab.study_pool) see the parent's model."""
+"""Studies in worker processes (fluxlab.studies.pool) see the parent's model."""
 
 from __future__ import annotations
 
@@ -7,9 +7,9 @@ import os
 
 from paths import DEMO
 
-from fluxlab.model import build_model
-from fluxlab.spec import load_machine, replace_path
-from fluxlab.study_pool import StudyPool
+from fluxlab.machine.model import build_model
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.pool import StudyPool
 
 
 def _describe(model, label):

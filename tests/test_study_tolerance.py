@@ -1,4 +1,4 @@
-"""The studies' Newton tolerance (fluxlab.model.STUDY_RTOL) against a much tighter solve.
+"""The studies' Newton tolerance (fluxlab.machine.model.STUDY_RTOL) against a much tighter solve.
 
 The studies stop Newton at a relative residual of 1e-5, not at the solver's 1e-8 default;
 that must not show in the reported figures. Reference: the same warm-started chain of
@@ -12,12 +12,12 @@ import math
 import numpy as np
 import pytest
 
-from fluxlab.model import STUDY_RTOL, build_model, current_density, phase_currents
-from fluxlab.operating_point import solve_point
-from fluxlab.post import flux_linkage_abc, park, torque_maxwell
-from fluxlab.solver import solve_field
-from fluxlab.spec import replace_path
-from fluxlab.studies import ripple_steps
+from fluxlab.fem.solver import solve_field
+from fluxlab.machine.model import STUDY_RTOL, build_model, current_density, phase_currents
+from fluxlab.machine.post import flux_linkage_abc, park, torque_maxwell
+from fluxlab.spec.machine_file import replace_path
+from fluxlab.studies.curves import ripple_steps
+from fluxlab.studies.operating_point import solve_point
 
 
 @pytest.fixture(scope="module")

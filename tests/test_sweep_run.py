@@ -20,7 +20,7 @@ import pytest
 from paths import DEMO
 
 from fluxlab.cli import main
-from fluxlab.spec import load_machine, replace_path
+from fluxlab.spec.machine_file import load_machine, replace_path
 from fluxlab.sweep import ResultStore, run_sweep
 from fluxlab.sweep.testing import fake_summary
 
@@ -217,7 +217,7 @@ def test_command_line_writes_table_figures_and_sheets(tmp_path, capsys):
 
 
 def test_pareto_front_matches_the_definition():
-    from fluxlab.plots_sweep import pareto_front
+    from fluxlab.report.plots.sweep import pareto_front
 
     rng = np.random.default_rng(3)
     f1, f2 = rng.random(300), rng.random(300)

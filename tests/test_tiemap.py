@@ -17,9 +17,9 @@ from meshes_closed_form import centroids, sector_machine_mesh
 from scipy import sparse
 
 from fluxlab.errors import MeshError
-from fluxlab.materials import AIR, builtin_material, linear_material
-from fluxlab.solver import make_problem, solve_field, step_tie_map
-from fluxlab.tiemap import Tie, build_tie_map, reduced_pattern
+from fluxlab.fem.solver import make_problem, solve_field, step_tie_map
+from fluxlab.fem.tiemap import Tie, build_tie_map, reduced_pattern
+from fluxlab.materials.material import AIR, builtin_material, linear_material
 
 # --- resolution of chains ------------------------------------------------------------------
 

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from fluxlab.errors import WindingError
-from fluxlab.winding import (
+from fluxlab.machine.winding import (
     WindingLayout,
     check_parallel_paths,
     coil_groups,
@@ -459,7 +459,7 @@ def test_layout_arrays_are_read_only():
 def test_plot_draws_one_labelled_cell_per_slot_layer(case):
     import matplotlib.pyplot as plt
 
-    from fluxlab.plots_winding import plot_winding_layout
+    from fluxlab.report.plots.winding import plot_winding_layout
 
     layout = winding_layout(*case)
     ax = plot_winding_layout(layout)

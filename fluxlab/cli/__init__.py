@@ -17,7 +17,7 @@ import math
 import sys
 from collections.abc import Callable
 
-from ..errors import FluxlabError
+from fluxlab.errors import FluxlabError
 
 __all__ = ["main", "option_problem"]
 
@@ -27,7 +27,7 @@ _COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope
 def _parser() -> argparse.ArgumentParser:
     from importlib import import_module
 
-    from ..version import __version__
+    from fluxlab.version import __version__
 
     parser = argparse.ArgumentParser(
         prog="fluxlab",
@@ -47,7 +47,7 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def _linear_solver(name: str) -> None:
-    from ..linsolve import choose
+    from fluxlab.fem.linsolve import choose
 
     try:
         choose(name)
@@ -67,15 +67,15 @@ def _option_checks(args) -> list[tuple[str, Callable[[], object]]]:
     if getattr(args, "linear_solver", None) is not None:
         checks.append(("--linear-solver", lambda: _linear_solver(args.linear_solver)))
     if args.command == "evaluate":
-        from ..evaluate import StudySettings
+        from fluxlab.studies.evaluate import StudySettings
 
         checks.append(("--studies, --angle-step-deg, --inductance-points",
                        lambda: StudySettings(studies=args.studies,
                                              angle_step_deg=args.angle_step_deg,
                                              inductance_points=args.inductance_points)))
     elif args.command == "envelope":
-        from ..envelope import envelope_settings
-        from ..spec import load_machine
+        from fluxlab.envelope import envelope_settings
+        from fluxlab.spec.machine_file import load_machine
 
         # the cross-checks need the machine (its current limit); reading it is fast
         checks.append(("--points, --positions, --max-current-A, --speed-points, "

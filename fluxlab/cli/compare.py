@@ -21,7 +21,7 @@ def run(args) -> int:
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..report_compare import load_evaluate_folder, write_compare_pdf
+    from fluxlab.report.compare import load_evaluate_folder, write_compare_pdf
 
     entries = [load_evaluate_folder(folder) for folder in args.folders]
     path = write_compare_pdf(entries, Path(args.out), title=args.title)

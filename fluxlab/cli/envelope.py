@@ -12,11 +12,16 @@ from pathlib import Path
 
 import numpy as np
 
-from ..envelope import envelope_settings, envelope_study, incremental_inductances, inverse_tables
-from ..figures import save_figure
-from ..spec import load_machine, machine_from_dict
-from ..sweep.progress import Progress
-from ..tables import write_csv
+from fluxlab.envelope import (
+    envelope_settings,
+    envelope_study,
+    incremental_inductances,
+    inverse_tables,
+)
+from fluxlab.report.figures import save_figure
+from fluxlab.report.tables import write_csv
+from fluxlab.spec.machine_file import load_machine, machine_from_dict
+from fluxlab.sweep.progress import Progress
 
 __all__ = ["add_args", "run", "envelope_tables", "write_envelope"]
 
@@ -95,7 +100,7 @@ def write_envelope(result, out: Path) -> list[Path]:
     import matplotlib
 
     matplotlib.use("Agg")
-    from .. import plots_envelope as pe
+    from fluxlab.report.plots import envelope as pe
 
     out.mkdir(parents=True, exist_ok=True)
     written = [write_csv(out / f"{stem}.csv", cols)

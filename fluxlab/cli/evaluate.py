@@ -8,10 +8,10 @@ import os
 import shutil
 from pathlib import Path
 
-from ..evaluate import StudySettings, evaluate
-from ..figures import save_figure
-from ..spec import load_machine, replace_path
-from ..sweep.progress import Progress
+from fluxlab.report.figures import save_figure
+from fluxlab.spec.machine_file import load_machine, replace_path
+from fluxlab.studies.evaluate import StudySettings, evaluate
+from fluxlab.sweep.progress import Progress
 
 __all__ = ["add_args", "run", "write_evaluation"]
 
@@ -43,8 +43,8 @@ def add_args(parser) -> None:
 
 def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
     """summary.json, a copy of the machine file and the CSV tables."""
-    from ..figures import CAUTION
-    from ..tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
+    from fluxlab.report.figures import CAUTION
+    from fluxlab.report.tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
 
     summary = {**evaluation.summary, "caution": CAUTION}
     (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
@@ -62,7 +62,11 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
     """The torque and inductance curves."""
     import matplotlib.pyplot as plt
 
-    from ..plots_curves import plot_inductances, plot_torque_vs_angle, plot_torque_vs_position
+    from fluxlab.report.plots.curves import (
+        plot_inductances,
+        plot_torque_vs_angle,
+        plot_torque_vs_position,
+    )
 
     plots = [
         ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
@@ -83,8 +87,8 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
     """The field at the rated point and the winding layout."""
     import matplotlib.pyplot as plt
 
-    from ..plots_field import plot_field
-    from ..plots_winding import plot_winding_layout
+    from fluxlab.report.plots.field import plot_field
+    from fluxlab.report.plots.winding import plot_winding_layout
 
     fig, ax = plt.subplots(figsize=(8, 7.5))
     plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)
@@ -100,7 +104,7 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
 
 
 def _write_sheet(evaluation, out: Path, envelope) -> list[Path]:
-    from ..report import write_review_sheet
+    from fluxlab.report.sheet import write_review_sheet
 
     return [write_review_sheet(evaluation, out / "review.pdf",
                                evaluation.rated_point.solution, envelope)]
@@ -111,20 +115,20 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
     """Write summary.json, the CSV tables, the figures and review.pdf; returns the paths.
 
     With an ``envelope`` result its files go to ``out/envelope`` and its page into the sheet.
-    ``parallel``: draw in two processes (see :mod:`fluxlab.forked`); the tables and the
+    ``parallel``: draw in two processes (see :mod:`fluxlab.report.forked`); the tables and the
     summary are written first, so a failing figure never costs them.
     """
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..forked import run_jobs
+    from fluxlab.report.forked import run_jobs
 
     out.mkdir(parents=True, exist_ok=True)
     written = _write_data(evaluation, out, machine_file)
     jobs = [lambda: _write_sheet(evaluation, out, envelope) + _write_curves(evaluation, out),
             lambda: _write_field_and_winding(evaluation, out)]
     if envelope is not None:
-        from .envelope import write_envelope
+        from fluxlab.cli.envelope import write_envelope
 
         jobs.append(lambda: write_envelope(envelope, out / "envelope"))
     return written + run_jobs(jobs, parallel)
@@ -141,7 +145,7 @@ def run(args) -> int:
                           linear_solver=args.linear_solver)
     envelope = None
     if args.full:
-        from ..envelope import envelope_study
+        from fluxlab.envelope import envelope_study
 
         envelope = envelope_study(spec, model=evaluation.model, workers=args.workers,
                                   progress=progress, operating=evaluation.operating_points())

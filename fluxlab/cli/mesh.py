@@ -5,9 +5,9 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from ..figures import save_figure
-from ..mesh import build_mesh
-from ..spec import load_machine
+from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.report.figures import save_figure
+from fluxlab.spec.machine_file import load_machine
 
 __all__ = ["add_args", "run", "write_mesh"]
 
@@ -45,7 +45,7 @@ def run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from ..plots_mesh import plot_mesh
+    from fluxlab.report.plots.mesh import plot_mesh
 
     spec = load_machine(args.machine)
     out = Path(args.out)

@@ -6,11 +6,11 @@ import json
 import math
 from pathlib import Path
 
-from ..dq import power_factor
-from ..figures import save_figure
-from ..model import build_model, rotor_step
-from ..operating_point import solve_point
-from ..spec import load_machine
+from fluxlab.machine.dq import power_factor
+from fluxlab.machine.model import build_model, rotor_step
+from fluxlab.report.figures import save_figure
+from fluxlab.spec.machine_file import load_machine
+from fluxlab.studies.operating_point import solve_point
 
 __all__ = ["add_args", "run", "point_record"]
 
@@ -62,7 +62,7 @@ def run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from ..plots_field import plot_field
+    from fluxlab.report.plots.field import plot_field
 
     spec = load_machine(args.machine)
     model = build_model(spec, linear_solver=args.linear_solver)

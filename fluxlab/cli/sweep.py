@@ -27,7 +27,7 @@ def add_args(parser) -> None:
 
 
 def _stored(path: Path) -> str:
-    from ..sweep import ResultStore
+    from fluxlab.sweep import ResultStore
 
     if not path.exists():
         return "nothing was stored yet"
@@ -38,8 +38,8 @@ def _stored(path: Path) -> str:
 
 
 def run(args) -> int:
-    from ..sweep import STORE_NAME, load_sweep, run_sweep
-    from ..sweep.outputs import write_sweep_outputs
+    from fluxlab.sweep import STORE_NAME, load_sweep, run_sweep
+    from fluxlab.sweep.outputs import write_sweep_outputs
 
     for option, value in (("--workers", args.workers), ("--best", args.best)):
         if value is not None and value < 1:

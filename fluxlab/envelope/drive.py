@@ -16,10 +16,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..dq import dq_torque
-from .fluxmap import FluxMap
-from .interp import FluxInterpolator
-from .mtpa import mtpa_point
+from fluxlab.envelope.fluxmap import FluxMap
+from fluxlab.envelope.interp import FluxInterpolator
+from fluxlab.envelope.mtpa import mtpa_point
+from fluxlab.machine.dq import dq_torque
 
 __all__ = [
     "Envelope",

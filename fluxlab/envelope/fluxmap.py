@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..dq import dq_torque
+from fluxlab.machine.dq import dq_torque
 
 __all__ = [
     "FluxMap",
@@ -98,8 +98,8 @@ def flux_map_from_arrays(i_d_A, i_q_A, psi_d_Wb, psi_q_Wb, pole_pairs: int,
 
 def _row_task(model, i_d: float, i_q_values: Sequence[float], positions: int | None):
     """One grid row (fixed id): the engine's mean psi_d, psi_q and air-gap torque."""
-    from ..averaging import averaging_steps
-    from ..operating_point import averaged_point
+    from fluxlab.studies.averaging import averaging_steps
+    from fluxlab.studies.operating_point import averaged_point
 
     steps = averaging_steps(model, positions)
     starts: dict[int, np.ndarray] = {}  # warm start per rotor step along the row
@@ -123,13 +123,13 @@ def flux_map(
 ) -> FluxMap:
     """Solve the flux map of ``model`` on the grid ``i_d_A`` x ``i_q_A`` (peak phase A).
 
-    Each grid point is the operating-point engine's (:mod:`fluxlab.operating_point`) at
+    Each grid point is the operating-point engine's (:mod:`fluxlab.studies.operating_point`) at
     current_peak = hypot(id, iq) and current angle atan2(iq, id), averaged over
     ``positions`` rotor positions of one torque period (default: the machine's averaging
     count). Rows run in ``workers`` processes.
     """
-    from ..averaging import averaging_steps
-    from ..study_pool import run_tasks
+    from fluxlab.studies.averaging import averaging_steps
+    from fluxlab.studies.pool import run_tasks
 
     i_d, i_q = np.asarray(i_d_A, float), np.asarray(i_q_A, float)
     flux_map_from_arrays(i_d, i_q, np.zeros((i_d.size, i_q.size)),

@@ -6,8 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..dq import dq_torque
-from .fluxmap import FluxMap
+from fluxlab.envelope.fluxmap import FluxMap
+from fluxlab.machine.dq import dq_torque
 
 __all__ = ["FluxInterpolator", "InverseTable", "inverse_tables"]
 

@@ -21,8 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..averaging import equally_spaced_steps
-from ..errors import MaterialError
+from fluxlab.errors import MaterialError
+from fluxlab.studies.averaging import equally_spaced_steps
 
 __all__ = [
     "RegionLoss",
@@ -109,7 +109,7 @@ def loss_densities(coefficients, frequency_Hz: float, orders: np.ndarray,
                    major: np.ndarray, minor: np.ndarray) -> tuple[np.ndarray, ...]:
     """Specific hysteresis, eddy and excess loss, W/kg, per element (summed over harmonics).
 
-    ``coefficients``: a :class:`fluxlab.steels.LossCoefficients`; ``frequency_Hz``: the
+    ``coefficients``: a :class:`fluxlab.materials.steels.LossCoefficients`; ``frequency_Hz``: the
     fundamental; ``orders``, ``major``, ``minor`` from :func:`harmonic_ellipses`.
     """
     c = coefficients
@@ -160,7 +160,7 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
     currents have changed sign. Where the sector is one anti-periodic pole pitch, the rotor
     field in the rotor frame repeats every T/2 as well; then half the period is solved
     (flag True). The sample count is raised to the next that divides the period's steps, so
-    that the positions are equally spaced (:func:`fluxlab.averaging.equally_spaced_steps`).
+    that the positions are equally spaced (:func:`fluxlab.studies.averaging.equally_spaced_steps`).
     """
     p = model.spec.pole_pairs
     period = round(2 * math.pi / p / model.step_angle)
@@ -176,7 +176,7 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
 
 
 def _sweep_task(model, current_peak, current_angle, steps):
-    from ..studies import solve_point
+    from fluxlab.studies.curves import solve_point
 
     out, initial = [], None
     for step in steps:
@@ -194,7 +194,7 @@ def flux_density_waveforms(model, current_peak: float, current_angle: float, sam
     The dq current is fixed; the rotor turns through one electrical period (see
     :func:`sweep_steps`); chunks of consecutive positions run in ``workers`` processes.
     """
-    from ..study_pool import run_tasks
+    from fluxlab.studies.pool import run_tasks
 
     steps, half = sweep_steps(model, samples)
     chunks = np.array_split(steps, max(1, min(workers, len(steps))))
@@ -228,7 +228,7 @@ def iron_loss_estimate(model, current_peak: float, current_angle: float, speed_r
                        samples: int = 48, workers: int = 1,
                        progress: Callable[[str], None] | None = None) -> IronLoss:
     """Iron loss of the whole machine, W, at one dq current and speed (see module text)."""
-    from ..solver import element_areas
+    from fluxlab.fem.solver import element_areas
 
     regions = iron_regions(model)
     for name, (_, material) in regions.items():

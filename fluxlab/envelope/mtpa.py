@@ -8,9 +8,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..dq import dq_torque
-from .fluxmap import FluxMap
-from .interp import FluxInterpolator
+from fluxlab.envelope.fluxmap import FluxMap
+from fluxlab.envelope.interp import FluxInterpolator
+from fluxlab.machine.dq import dq_torque
 
 __all__ = ["MTPATrajectory", "mtpa_point", "mtpa_trajectory", "with_engine_points"]
 

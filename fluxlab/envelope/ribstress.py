@@ -18,8 +18,8 @@ import logging
 import math
 from dataclasses import dataclass
 
-from ..errors import SpecError
-from ..spec_types import MachineSpec
+from fluxlab.errors import SpecError
+from fluxlab.spec.types import MachineSpec
 
 __all__ = ["RIB_CAUTION", "BarrierStress", "RibStress", "outer_steel", "rib_stress"]
 
@@ -69,8 +69,8 @@ class RibStress:
 
 
 def _pole_shapes(spec: MachineSpec):
-    from ..geometry.csg import annular_sector, cut, to_shapely
-    from ..geometry.rotor import barrier_shape, post_shape
+    from fluxlab.geometry.csg import annular_sector, cut, to_shapely
+    from fluxlab.geometry.rotor import barrier_shape, post_shape
 
     rotor, radius = spec.rotor, spec.rotor_radius
     half = math.pi / spec.poles  # pole from d-axis to d-axis, q-axis on +x
@@ -91,7 +91,7 @@ def _rib_cutters(spec: MachineSpec, barrier):
     """Strips through the tangential ribs at both ends of a barrier, out past the surface."""
     from shapely.geometry import Point
 
-    from ..geometry.csg import annular_sector, to_shapely
+    from fluxlab.geometry.csg import annular_sector, to_shapely
 
     radius, rib = spec.rotor_radius, spec.rotor.tangential_rib
     near = barrier.difference(Point(0, 0).buffer(radius - rib - _EPS, quad_segs=720))

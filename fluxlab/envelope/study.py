@@ -10,16 +10,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..averaging import averaging_positions
-from ..errors import MaterialError
-from ..operating_point import AveragedPoint, OperatingPoints
-from ..spec_types import MachineSpec
-from .drive import Envelope, phase_voltage_limit, torque_speed_envelope
-from .fluxmap import FluxMap, current_grid, flux_map
-from .ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
-from .mtpa import MTPATrajectory, mtpa_trajectory, with_engine_points
-from .resistance import PhaseResistance, phase_resistance
-from .ribstress import RibStress, rib_stress
+from fluxlab.envelope.drive import Envelope, phase_voltage_limit, torque_speed_envelope
+from fluxlab.envelope.fluxmap import FluxMap, current_grid, flux_map
+from fluxlab.envelope.ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
+from fluxlab.envelope.mtpa import MTPATrajectory, mtpa_trajectory, with_engine_points
+from fluxlab.envelope.resistance import PhaseResistance, phase_resistance
+from fluxlab.envelope.ribstress import RibStress, rib_stress
+from fluxlab.errors import MaterialError
+from fluxlab.spec.types import MachineSpec
+from fluxlab.studies.averaging import averaging_positions
+from fluxlab.studies.operating_point import AveragedPoint, OperatingPoints
 
 __all__ = [
     "EnvelopeSettings",
@@ -114,11 +114,11 @@ def operating_points(model, currents: list[float], workers: int = 1,
                      progress: Callable[[str], None] | None = None) -> OperatingPoints:
     """The rated point and the MTPA at ``currents`` (peak A) by the operating-point engine.
 
-    The same studies as :func:`fluxlab.evaluate.evaluate` (current-angle grid and bounded
-    MTPA search, :func:`fluxlab.studies.torque_vs_current_angle`), run in ``workers``.
+    The same studies as :func:`fluxlab.studies.evaluate.evaluate` (current-angle grid and bounded
+    MTPA search, :func:`fluxlab.studies.curves.torque_vs_current_angle`), run in ``workers``.
     """
-    from ..studies import ANGLE_STEP_DEG, torque_vs_current_angle
-    from ..study_pool import run_tasks
+    from fluxlab.studies.curves import ANGLE_STEP_DEG, torque_vs_current_angle
+    from fluxlab.studies.pool import run_tasks
 
     op = model.spec.operating
     rated_angle = [] if op.current_angle is None else [math.degrees(op.current_angle)]
@@ -153,12 +153,12 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
 
     The rated point and the MTPA at the rated current and the current limit come from the
     operating-point engine (``operating``, as an evaluation found them, or solved here), so
-    they equal :func:`fluxlab.evaluate.evaluate`'s; the flux maps, averaged over the same
+    they equal :func:`fluxlab.studies.evaluate.evaluate`'s; the flux maps, averaged over the same
     rotor positions, add the trajectory and the torque-speed envelope between them. Iron
     loss is computed at the rated point at the rated speed; it is skipped, with a warning,
     when a steel has no loss coefficients.
     """
-    from ..model import build_model
+    from fluxlab.machine.model import build_model
 
     settings = settings or envelope_settings(spec)
     say = progress or (lambda message: None)

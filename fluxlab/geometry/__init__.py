@@ -1,7 +1,7 @@
 """Machine geometry: stator slots, flux barriers, and the modelled sector."""
 
-from .checks import geometry_problems
-from .sector import (
+from fluxlab.geometry.checks import geometry_problems
+from fluxlab.geometry.sector import (
     poles_in_sector,
     rotor_regions,
     sliding_radius,

@@ -8,11 +8,11 @@ from __future__ import annotations
 
 import math
 
-from ..errors import GeometryError
-from ..spec_types import MachineSpec
-from .csg import disk, to_shapely
-from .rotor import barrier_shape
-from .stator import slot_outline
+from fluxlab.errors import GeometryError
+from fluxlab.geometry.csg import disk, to_shapely
+from fluxlab.geometry.rotor import barrier_shape
+from fluxlab.geometry.stator import slot_outline
+from fluxlab.spec.types import MachineSpec
 
 __all__ = ["geometry_problems"]
 
@@ -147,7 +147,7 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
 
 def geometry_problems(spec: MachineSpec) -> list[str]:
     """Every geometric problem of a machine, as messages naming key, value and limit."""
-    from ..winding import machine_symmetry
+    from fluxlab.machine.winding import machine_symmetry
 
     problems = _stator_problems(spec) + _barrier_problems(spec)
     sectors, _, _ = machine_symmetry(spec.stator.slots, spec.poles)

@@ -31,9 +31,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from ..errors import GeometryError
-from ..spec_types import BarrierSpec, RotorSpec
-from .csg import Shape, cut, disk, intersect, polygon
+from fluxlab.errors import GeometryError
+from fluxlab.geometry.csg import Shape, cut, disk, intersect, polygon
+from fluxlab.spec.types import BarrierSpec, RotorSpec
 
 __all__ = [
     "BarrierPlacement",

@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import math
 
-from ..spec_types import MachineSpec
-from .csg import Shape, annular_sector, cut, rotate
-from .rotor import barrier_shape, post_shape
-from .stator import slot_shapes
+from fluxlab.geometry.csg import Shape, annular_sector, cut, rotate
+from fluxlab.geometry.rotor import barrier_shape, post_shape
+from fluxlab.geometry.stator import slot_shapes
+from fluxlab.spec.types import MachineSpec
 
 __all__ = [
     "sliding_radius",

@@ -11,8 +11,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..spec_types import StatorSpec
-from .csg import Shape, cut, disk, intersect, polygon, union
+from fluxlab.geometry.csg import Shape, cut, disk, intersect, polygon, union
+from fluxlab.spec.types import StatorSpec
 
 __all__ = ["SlotOutline", "slot_outline", "slot_shapes"]
 

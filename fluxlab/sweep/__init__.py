@@ -7,13 +7,13 @@ cluster, and returns one row per candidate. The parts: :mod:`.sweepfile` (the fi
 :mod:`.store` (SQLite), :mod:`.executors`, :mod:`.worker`, :mod:`.table`, :mod:`.run`.
 """
 
-from .candidates import Candidate, candidate_key, make_candidates
-from .executors import DaskExecutor, Executor, LocalPoolExecutor
-from .plan import plan_points
-from .run import RESULTS_CSV, run_sweep
-from .store import STORE_NAME, ResultStore, StoredResult
-from .sweepfile import ParameterSpec, PlanSpec, SweepSpec, load_sweep, sweep_from_dict
-from .table import results_table, write_results_csv
+from fluxlab.sweep.candidates import Candidate, candidate_key, make_candidates
+from fluxlab.sweep.executors import DaskExecutor, Executor, LocalPoolExecutor
+from fluxlab.sweep.plan import plan_points
+from fluxlab.sweep.run import RESULTS_CSV, run_sweep
+from fluxlab.sweep.store import STORE_NAME, ResultStore, StoredResult
+from fluxlab.sweep.sweepfile import ParameterSpec, PlanSpec, SweepSpec, load_sweep, sweep_from_dict
+from fluxlab.sweep.table import results_table, write_results_csv
 
 __all__ = [
     "Candidate",

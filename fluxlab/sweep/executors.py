@@ -14,8 +14,8 @@ from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
-from ..blas_threads import single_thread_blas
-from .worker import init_worker
+from fluxlab.studies.blas_threads import single_thread_blas
+from fluxlab.sweep.worker import init_worker
 
 __all__ = ["Executor", "LocalPoolExecutor", "DaskExecutor", "lost_task_result"]
 
@@ -112,7 +112,7 @@ class LocalPoolExecutor(Executor):
 
     def __init__(self, workers: int | None = None):
         self.workers = max(1, workers or os.cpu_count() or 1)
-        self._blas = single_thread_blas()  # set while the pool lives (fluxlab.blas_threads)
+        self._blas = single_thread_blas()  # set while the pool lives (fluxlab.studies.blas_threads)
         self._blas.__enter__()
         self._pool = self._new_pool()
 
@@ -171,7 +171,7 @@ class DaskExecutor(Executor):
         try:
             from distributed import Client
         except ImportError as err:  # an optional extra
-            from ..errors import FluxlabError
+            from fluxlab.errors import FluxlabError
 
             raise FluxlabError("a scheduler address needs dask.distributed: "
                                "pip install 'fluxlab[cluster]'") from err

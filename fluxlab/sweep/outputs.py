@@ -13,10 +13,10 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import SpecError
-from ..figures import save_figure
-from .store import STORE_NAME, ResultStore
-from .sweepfile import SweepSpec
+from fluxlab.errors import SpecError
+from fluxlab.report.figures import save_figure
+from fluxlab.sweep.store import STORE_NAME, ResultStore
+from fluxlab.sweep.sweepfile import SweepSpec
 
 __all__ = ["best_rows", "compare_entries", "write_sweep_outputs"]
 
@@ -25,7 +25,7 @@ log = logging.getLogger(__name__)
 
 def best_rows(rows: Sequence[dict], count: int = 4) -> list[dict]:
     """Up to ``count`` done rows: the Pareto front by descending torque, then by torque."""
-    from ..plots_sweep import front_rows
+    from fluxlab.report.plots.sweep import front_rows
 
     chosen = front_rows(rows)[:count]
     seen = {r["key"] for r in chosen}
@@ -49,8 +49,8 @@ def _curve(curves: dict | None, name: str, x_name: str):
 
 def compare_entries(rows: Sequence[dict], store: ResultStore, base_dir: Path) -> list:
     """Comparison-sheet entries of sweep rows, with outlines and curves from the store."""
-    from ..report_compare import CompareEntry
-    from ..spec import machine_from_dict
+    from fluxlab.report.compare import CompareEntry
+    from fluxlab.spec.machine_file import machine_from_dict
 
     entries = []
     for row in rows:
@@ -80,8 +80,8 @@ def write_sweep_outputs(sweep: SweepSpec, rows: Sequence[dict], out_dir: str | P
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from ..plots_sweep import plot_parameters, plot_pareto
-    from ..report_compare import write_compare_pdf
+    from fluxlab.report.compare import write_compare_pdf
+    from fluxlab.report.plots.sweep import plot_parameters, plot_pareto
 
     out = Path(out_dir)
     if not any(r.get("status") == "done" for r in rows):

@@ -11,7 +11,7 @@ import itertools
 
 import numpy as np
 
-from .sweepfile import ParameterSpec, SweepSpec
+from fluxlab.sweep.sweepfile import ParameterSpec, SweepSpec
 
 __all__ = ["DECIMALS", "plan_points", "grid_values", "scale_unit"]
 

@@ -11,13 +11,13 @@ import logging
 from collections.abc import Callable
 from pathlib import Path
 
-from .candidates import DEFAULT_EVALUATOR, Candidate, make_candidates
-from .executors import DaskExecutor, Executor, LocalPoolExecutor
-from .progress import ProgressBar
-from .store import STORE_NAME, ResultStore
-from .sweepfile import SweepSpec, load_sweep
-from .table import results_table, write_results_csv
-from .worker import evaluate_task, resolve_evaluator
+from fluxlab.sweep.candidates import DEFAULT_EVALUATOR, Candidate, make_candidates
+from fluxlab.sweep.executors import DaskExecutor, Executor, LocalPoolExecutor
+from fluxlab.sweep.progress import ProgressBar
+from fluxlab.sweep.store import STORE_NAME, ResultStore
+from fluxlab.sweep.sweepfile import SweepSpec, load_sweep
+from fluxlab.sweep.table import results_table, write_results_csv
+from fluxlab.sweep.worker import evaluate_task, resolve_evaluator
 
 __all__ = ["run_sweep", "evaluator_reference", "RESULTS_CSV"]
 
@@ -27,7 +27,7 @@ RESULTS_CSV = "results.csv"
 
 def evaluator_reference(evaluator: str | Callable | None, sweep: SweepSpec) -> str:
     """The ``"module:function"`` name of the evaluator to use (the argument, the sweep
-    file's ``evaluator`` testing hook, or :func:`fluxlab.evaluate.evaluate`)."""
+    file's ``evaluator`` testing hook, or :func:`fluxlab.studies.evaluate.evaluate`)."""
     if evaluator is None:
         return sweep.evaluator or DEFAULT_EVALUATOR
     if isinstance(evaluator, str):
@@ -93,7 +93,7 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
         their machine file is invalid, which a rerun cannot change).
     evaluator
         Testing hook: the evaluation function, or its ``"module:function"`` name;
-        default the sweep file's ``evaluator`` or :func:`fluxlab.evaluate.evaluate`.
+        default the sweep file's ``evaluator`` or :func:`fluxlab.studies.evaluate.evaluate`.
     progress
         Draw a progress bar on stderr.
 

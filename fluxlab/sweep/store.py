@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 
-from .candidates import canonical_json
+from fluxlab.sweep.candidates import canonical_json
 
 __all__ = ["STATUSES", "StoredResult", "ResultStore", "STORE_NAME"]
 
@@ -111,7 +111,7 @@ class ResultStore:
 
         A replaced row keeps its ``created_at`` and counts one more attempt.
         """
-        from ..version import __version__
+        from fluxlab.version import __version__
 
         if status not in STATUSES:
             raise ValueError(f"status = {status!r}: must be one of {', '.join(STATUSES)}")

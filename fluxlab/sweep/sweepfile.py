@@ -36,9 +36,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from ..errors import SpecError
-from ..keypath import get_path, key_kind, parse_path, set_path
-from ..tomlfile import read_toml
+from fluxlab.errors import SpecError
+from fluxlab.spec.keypath import get_path, key_kind, parse_path, set_path
+from fluxlab.spec.tomlfile import read_toml
 
 __all__ = [
     "PLAN_KINDS",
@@ -252,7 +252,7 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
         With every problem found: unknown keys, a missing or invalid base machine, a path
         that names no numeric key, an empty value list, ``low >= high``, an unknown plan.
     """
-    from ..spec import machine_from_dict
+    from fluxlab.spec.machine_file import machine_from_dict
 
     base_dir = Path(base_dir)
     if not isinstance(data, dict):

@@ -11,9 +11,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 from pathlib import Path
 
-from ..tables import write_csv
-from .candidates import Candidate
-from .store import StoredResult
+from fluxlab.report.tables import write_csv
+from fluxlab.sweep.candidates import Candidate
+from fluxlab.sweep.store import StoredResult
 
 __all__ = ["RESULT_COLUMNS", "results_table", "result_columns", "write_results_csv"]
 

@@ -27,8 +27,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..dq import dq_torque
-from ..errors import ConvergenceError
+from fluxlab.errors import ConvergenceError
+from fluxlab.machine.dq import dq_torque
 
 __all__ = ["FAIL_SPEED_RPM", "CRASH_SPEED_RPM", "FakeCurve", "FakeEvaluation", "fake_evaluate",
            "fake_summary"]
@@ -70,7 +70,7 @@ def _burn(rounds: int) -> None:
 
 def fake_summary(spec, studies: str) -> dict:
     """The made-up summary of a machine (see the module docstring)."""
-    from ..version import __version__
+    from fluxlab.version import __version__
 
     widths_mm = sum(b.width for b in spec.rotor.barriers) * 1e3
     ends_deg = sum(math.degrees(b.end_angle) for b in spec.rotor.barriers)

@@ -19,7 +19,7 @@ from importlib import import_module
 from pathlib import Path
 from typing import Any
 
-from ..blas_threads import BLAS_THREAD_VARIABLES, limit_loaded_blas
+from fluxlab.studies.blas_threads import BLAS_THREAD_VARIABLES, limit_loaded_blas
 
 __all__ = ["init_worker", "resolve_evaluator", "jsonable", "evaluate_task", "curves_of"]
 
@@ -94,8 +94,8 @@ def evaluate_task(task: dict) -> dict:
         ``key``, ``status`` (done / rejected / failed), ``summary``, ``curves``, ``message``
         and ``elapsed_s`` (wall time of this call, s).
     """
-    from ..errors import SpecError
-    from ..spec import machine_from_dict
+    from fluxlab.errors import SpecError
+    from fluxlab.spec.machine_file import machine_from_dict
 
     start = time.perf_counter()
     out = {"key": task["key"], "status": "done", "summary": None, "curves": None,

@@ -1,0 +1,144 @@
+"""The one-page review sheet of an evaluation (PDF), for a design review."""
+
+from __future__ import annotations
+
+import datetime
+import math
+from pathlib import Path
+
+from fluxlab.report.figures import caution_line
+from fluxlab.studies.evaluate import Evaluation
+
+__all__ = ["key_figures", "write_review_sheet"]
+
+
+def _fmt(value, digits=4) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "n/a"
+    return f"{value:.{digits}g}"
+
+
+def key_figures(summary: dict) -> list[tuple[str, str]]:
+    """(quantity with unit, value) rows of the key figures of a summary."""
+    avg = summary.get("averaging", {})
+    rows = [
+        ("rated current (A peak)", _fmt(summary["current_peak_A"])),
+        ("current angle γ (deg from d-axis)", _fmt(summary["current_angle_deg"])),
+        ("ψd / ψq, position mean (Wb)",
+         f"{_fmt(summary['psi_d_Wb'])} / {_fmt(summary['psi_q_Wb'])}"),
+        ("Ld / Lq at the operating point (mH)",
+         f"{_fmt(_milli(summary['Ld_apparent_H']))} / {_fmt(_milli(summary['Lq_apparent_H']))}"),
+        ("saliency Ld/Lq at the operating point", _fmt(summary["saliency_apparent"])),
+        ("Ld / Lq one axis at a time (mH)",
+         f"{_fmt(_milli(summary['Ld_one_axis_H']))} / {_fmt(_milli(summary['Lq_one_axis_H']))}"),
+        (f"mean torque, {avg.get('positions', '?')} positions (N·m)",
+         _fmt(summary["torque_mean_Nm"])),
+        ("air-gap torque, ripple mean (N·m)", _fmt(summary["torque_maxwell_mean_Nm"])),
+        ("torque ripple, peak to peak (%)", _fmt(summary["torque_ripple_pct"], 3)),
+        ("power factor (R neglected)", _fmt(summary["power_factor"], 3)),
+        ("MTPA at rated current (deg; N·m)",
+         f"{_fmt(summary['mtpa_angle_deg'], 3)}; {_fmt(summary['mtpa_torque_Nm'])}"),
+    ]
+    if summary.get("overload_current_peak_A"):
+        rows.append((f"MTPA at {summary['overload_current_peak_A']:g} A (deg; N·m)",
+                     f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}; "
+                     f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
+    rows += _flux_density_rows(summary.get("flux_density"))
+    rows.append(("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"))
+    return rows
+
+
+def _milli(value):
+    return None if value is None else value * 1e3
+
+
+def _flux_density_rows(densities: dict | None) -> list[tuple[str, str]]:
+    """Rows of the per-region flux densities at the rated point, position 0."""
+    if not densities:
+        return []
+    rows = []
+    for region, label in (("stator_teeth", "teeth"), ("stator_yoke", "yoke")):
+        if region in densities:
+            d = densities[region]
+            rows.append((f"|B| stator {label}: mean / 99 % (T)",
+                         f"{_fmt(d['mean_T'], 3)} / {_fmt(d['p99_T'], 3)}"))
+    rotor = [f"{_fmt(densities[r]['p99_T'], 3)}" for r in ("rotor_flux_guides", "rotor_ribs")
+             if r in densities]
+    if rotor:
+        rows.append(("|B| rotor guides / ribs: 99 % (T)", " / ".join(rotor)))
+    return rows
+
+
+def _table(ax, rows) -> None:
+    ax.axis("off")
+    table = ax.table(cellText=[list(r) for r in rows], colLabels=["quantity", "value"],
+                     colWidths=[0.7, 0.3], loc="upper center", cellLoc="left")
+    table.auto_set_font_size(False)
+    table.set_fontsize(6.5)
+    table.scale(1.12, 1.0)
+
+
+def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
+                       envelope=None) -> Path:
+    """Write the A4 landscape review sheet of ``evaluation`` to ``path`` (PDF).
+
+    With an ``envelope`` result (:func:`fluxlab.envelope.envelope_study`) a second page
+    shows the operating envelope, losses and rib stress.
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    from fluxlab.report.plots.curves import (
+        plot_inductances,
+        plot_torque_vs_angle,
+        plot_torque_vs_position,
+    )
+    from fluxlab.report.plots.field import plot_outline
+
+    spec, summary = evaluation.spec, evaluation.summary
+    fig = plt.figure(figsize=(11.69, 8.27))
+    grid = fig.add_gridspec(2, 3, left=0.05, right=0.96, top=0.86, bottom=0.12,
+                            wspace=0.34, hspace=0.36, width_ratios=[1.0, 1.15, 1.15])
+    fig.suptitle(f"fluxlab review sheet: {spec.name}", fontsize=14, x=0.05, ha="left")
+    fig.text(0.05, 0.915,
+             f"{spec.poles} poles, {spec.stator.slots} slots, {len(spec.rotor.barriers)} "
+             f"{spec.rotor.barrier_shape} barrier(s) per pole, stack {spec.stack_length * 1e3:g} "
+             f"mm, rotor steel {spec.materials['rotor'].name}.   fluxlab "
+             f"{summary['fluxlab_version']}, {datetime.date.today().isoformat()}\n"
+             "Currents are peak phase amperes; current angle from the d-axis (least reluctance); "
+             "saliency ratio = Ld/Lq; amplitude-invariant Park transform; counter-clockwise "
+             "positive.", fontsize=8, va="bottom")
+    ax = fig.add_subplot(grid[0, 0])
+    plot_outline(spec, ax=ax, full=True)
+    ax.set_title("cross-section (mm)", fontsize=9)
+    _table(fig.add_subplot(grid[0, 1]), key_figures(summary))
+    curves = [
+        (evaluation.torque_vs_position, plot_torque_vs_position, grid[0, 2],
+         "Torque vs rotor position at the rated point"),
+        (evaluation.torque_vs_angle or None, plot_torque_vs_angle, grid[1, 0],
+         "Torque vs current angle (position means)"),
+        (evaluation.inductances, plot_inductances, grid[1, 1],
+         "Saturation, current on one axis at a time"),
+    ]
+    for data, plot, cell, title in curves:
+        if data is not None:
+            plot(data, ax=fig.add_subplot(cell)).set_title(title)
+    if field_solution is not None:
+        from fluxlab.report.plots.field import plot_field
+
+        plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
+            "Field at the rated point, position 0")
+    for a in fig.axes:
+        a.title.set_fontsize(9)
+        a.tick_params(labelsize=7)
+        a.xaxis.label.set_fontsize(8)
+        a.yaxis.label.set_fontsize(8)
+    fig.text(0.05, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
+    with PdfPages(path) as pdf:
+        pdf.savefig(fig)
+        plt.close(fig)
+        if envelope is not None:
+            from fluxlab.report.plots.envelope import add_envelope_page
+
+            add_envelope_page(pdf, envelope)
+    return path
