@@ -33,8 +33,8 @@ def main() -> None:
     from threadpoolctl import threadpool_limits
 
     import fluxlab
-    from fluxlab.cli.evaluate import write_evaluation
     from fluxlab.fem.solver import linear_backend
+    from fluxlab.report.evaluation_files import write_evaluation
 
     start = time.perf_counter()
     with threadpool_limits(limits=1):

@@ -12,7 +12,6 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from fluxlab.cli import main
-from fluxlab.cli.envelope import write_envelope
 from fluxlab.envelope import (
     envelope_settings,
     flux_map_from_arrays,
@@ -25,6 +24,7 @@ from fluxlab.envelope.ironloss import IronLoss, RegionLoss
 from fluxlab.envelope.study import EnvelopeResult, _rated_point, _summary
 from fluxlab.errors import SpecError
 from fluxlab.machine.dq import power_factor
+from fluxlab.report.envelope_files import write_envelope
 from fluxlab.spec.machine_file import load_machine, machine_from_dict
 from fluxlab.studies.operating_point import AveragedPoint, OperatingPoints
 
@@ -41,8 +41,8 @@ def _synthetic_result():
     fmap = flux_map_from_arrays(i, i, 0.05 * d, 0.012 * q, spec.pole_pairs,
                                 torque_Nm=1.5 * 2 * 0.038 * d * q)
     res = phase_resistance(spec)
-    env = torque_speed_envelope(fmap, res.resistance_Ohm, s.current_limit_A,
-                                s.voltage_limit_V, np.linspace(0, s.max_speed_rpm, 9))
+    env = torque_speed_envelope(fmap, res.resistance_Ohm, s.current_limit_peak_A,
+                                s.voltage_limit_peak_V, np.linspace(0, s.max_speed_rpm, 9))
     iron = IronLoss((RegionLoss("stator teeth", 6.0, 20.0, 6.0, 4.0),
                      RegionLoss("stator yoke", 12.0, 30.0, 9.0, 6.0),
                      RegionLoss("rotor", 11.0, 1.0, 0.5, 0.5)), 1500.0, 50.0, 25.0, 45.0, 48)
@@ -77,8 +77,8 @@ def test_writer_tables_have_units_and_figures_exist(tmp_path):
     assert len(rows) == 25 and "Ldq_incremental_H" in rows[0] and "psi_d_Wb" in rows[0]
     # the inverse table of the linear map: id = psi_d / Ld wherever it is defined
     with (tmp_path / "flux_map_inverse.csv").open() as f:
-        inv = [r for r in csv.DictReader(f) if r["id_A"] != "nan"]
-    assert inv and all(math.isclose(float(r["id_A"]), float(r["psi_d_Wb"]) / 0.05,
+        inv = [r for r in csv.DictReader(f) if r["i_d_A"] != "nan"]
+    assert inv and all(math.isclose(float(r["i_d_A"]), float(r["psi_d_Wb"]) / 0.05,
                                     rel_tol=1e-6, abs_tol=1e-9) for r in inv)
     summary = json.loads((tmp_path / "envelope_summary.json").read_text())
     assert "does not replace a structural analysis" in summary["rib_caution"]
@@ -127,7 +127,7 @@ def test_drive_section_is_optional_and_unknown_keys_are_named():
     raw.pop("drive")
     spec = machine_from_dict(raw, GEOMETRIES)
     s = envelope_settings(spec)
-    assert s.current_limit_A == spec.operating.overload_current_peak_A
+    assert s.current_limit_peak_A == spec.operating.overload_current_peak_A
     assert s.max_speed_rpm == 2 * spec.operating.speed_rpm
     raw["drive"] = {"dc_link_V": 600.0}
     with pytest.raises(SpecError, match="drive.dc_link_V: unknown key"):

@@ -177,13 +177,13 @@ def test_inverse_of_a_cross_coupled_map_marks_unreachable_fluxes():
 
 @pytest.mark.parametrize("kwargs, word", [
     (dict(resistance_Ohm=-1.0), "resistance"),
-    (dict(current_limit_A=0.0), "current limit"),
-    (dict(current_limit_A=80.0), "current limit"),  # beyond the map
-    (dict(voltage_limit_V=math.nan), "voltage limit"),
+    (dict(current_limit_peak_A=0.0), "current limit"),
+    (dict(current_limit_peak_A=80.0), "current limit"),  # beyond the map
+    (dict(voltage_limit_peak_V=math.nan), "voltage limit"),
     (dict(speeds_rpm=[0.0, -5.0]), "speeds_rpm"),
 ])
 def test_bad_envelope_inputs_are_named(kwargs, word):
-    args = dict(resistance_Ohm=0.0, current_limit_A=I_MAX, voltage_limit_V=V_MAX,
+    args = dict(resistance_Ohm=0.0, current_limit_peak_A=I_MAX, voltage_limit_peak_V=V_MAX,
                 speeds_rpm=[0.0, 100.0])
     args.update(kwargs)
     with pytest.raises(ValueError, match=word) as info:

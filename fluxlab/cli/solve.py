@@ -6,13 +6,13 @@ import json
 import math
 from pathlib import Path
 
-from fluxlab.machine.dq import power_factor
 from fluxlab.machine.model import build_model, rotor_step
 from fluxlab.report.figures import save_figure
+from fluxlab.report.point_files import point_record
 from fluxlab.spec.machine_file import load_machine
 from fluxlab.studies.operating_point import solve_point
 
-__all__ = ["add_args", "run", "point_record"]
+__all__ = ["add_args", "run"]
 
 
 def add_args(parser) -> None:
@@ -27,33 +27,6 @@ def add_args(parser) -> None:
     parser.add_argument("--linear-solver", choices=("auto", "scipy", "pardiso"), default="auto",
                         help="sparse direct solver: auto (PARDISO when installed), scipy, "
                         "pardiso")
-
-
-def point_record(model, point) -> dict:
-    """JSON-able record of one solved point (SI units, names with units)."""
-    sol = point.solution
-    return {
-        "current_peak_A": point.current_peak_A,
-        "current_angle_deg": math.degrees(point.current_angle),
-        "position_deg": math.degrees(point.position),
-        "rotor_step": point.step,
-        "i_d_A": point.i_d,
-        "i_q_A": point.i_q,
-        "psi_d_Wb": point.psi_d,
-        "psi_q_Wb": point.psi_q,
-        "torque_maxwell_Nm": point.torque_maxwell_Nm,
-        "torque_dq_Nm": point.torque_dq_Nm,
-        "power_factor": power_factor(point.psi_d, point.psi_q, point.i_d, point.i_q),
-        "energy_J": model.scale * sol.energy_per_m,
-        "coenergy_J": model.scale * sol.coenergy_per_m,
-        "b_local_peak_T": float(sol.b_norm.max()),
-        "newton_iterations": sol.iterations,
-        "newton_rtol": model.newton_rtol,
-        "newton_relative_residuals": list(sol.history),
-        "nodes": int(model.mesh.mesh.p.shape[1]),
-        "element_order": model.spec.mesh.element_order,
-        "currents": "peak phase amperes; angle from the d-axis",
-    }
 
 
 def run(args) -> int:

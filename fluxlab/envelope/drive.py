@@ -149,8 +149,8 @@ class Envelope:
     region: tuple[str, ...]
     base_speed_rpm: float
     base_torque_Nm: float
-    current_limit_A: float
-    voltage_limit_V: float
+    current_limit_peak_A: float
+    voltage_limit_peak_V: float
     resistance_Ohm: float
 
     @property
@@ -169,22 +169,22 @@ def _region(current, voltage, i_max, v_max) -> str:
 def torque_speed_envelope(
     fmap: FluxMap,
     resistance_Ohm: float,
-    current_limit_A: float,
-    voltage_limit_V: float,
+    current_limit_peak_A: float,
+    voltage_limit_peak_V: float,
     speeds_rpm: Sequence[float],
 ) -> Envelope:
     """Largest torque at each speed (rpm) under a peak-current and a peak-voltage limit.
 
-    ``fmap`` must cover the current limit (its grid reaches ``current_limit_A`` on both
+    ``fmap`` must cover the current limit (its grid reaches ``current_limit_peak_A`` on both
     axes); the base speed is added to the speeds when it lies inside their range.
     """
     problems = []
-    if not (math.isfinite(current_limit_A) and 0 < current_limit_A <= fmap.max_current_A
+    if not (math.isfinite(current_limit_peak_A) and 0 < current_limit_peak_A <= fmap.max_current_A
             * (1 + 1e-9)):
-        problems.append(f"current limit = {current_limit_A!r} A: must be > 0 and within the "
+        problems.append(f"current limit = {current_limit_peak_A!r} A: must be > 0 and within the "
                         f"flux map's {fmap.max_current_A:.4g} A")
-    if not (math.isfinite(voltage_limit_V) and voltage_limit_V > 0):
-        problems.append(f"voltage limit = {voltage_limit_V!r} V: must be > 0")
+    if not (math.isfinite(voltage_limit_peak_V) and voltage_limit_peak_V > 0):
+        problems.append(f"voltage limit = {voltage_limit_peak_V!r} V: must be > 0")
     if not (math.isfinite(resistance_Ohm) and resistance_Ohm >= 0):
         problems.append(f"resistance = {resistance_Ohm!r} Ohm: must be >= 0")
     speeds = np.asarray(speeds_rpm, dtype=float)
@@ -193,20 +193,20 @@ def torque_speed_envelope(
     if problems:
         raise ValueError("; ".join(problems))
     interp, p = FluxInterpolator(fmap), fmap.pole_pairs
-    gamma = mtpa_point(interp, current_limit_A)
-    i_d, i_q = current_limit_A * math.cos(gamma), current_limit_A * math.sin(gamma)
+    gamma = mtpa_point(interp, current_limit_peak_A)
+    i_d, i_q = current_limit_peak_A * math.cos(gamma), current_limit_peak_A * math.sin(gamma)
     psi_d, psi_q = (float(x) for x in interp.psi(i_d, i_q))
-    base = speed_at_voltage(psi_d, psi_q, i_d, i_q, resistance_Ohm, voltage_limit_V) / p / RPM
+    base = speed_at_voltage(psi_d, psi_q, i_d, i_q, resistance_Ohm, voltage_limit_peak_V) / p / RPM
     if base == 0:
         log.warning("the voltage limit %.4g V is below R I_max: no speed is reachable",
-                    voltage_limit_V)
+                    voltage_limit_peak_V)
     if speeds.min() < base < speeds.max():
         speeds = np.unique(np.append(speeds, base))
     rows = []
     for n in speeds:
         omega_e = p * n * RPM
-        x, y = max_torque_point(interp, resistance_Ohm, omega_e, current_limit_A,
-                                voltage_limit_V)
+        x, y = max_torque_point(interp, resistance_Ohm, omega_e, current_limit_peak_A,
+                                voltage_limit_peak_V)
         pd, pq = (float(v) for v in interp.psi(x, y))
         vd, vq = dq_voltage(pd, pq, x, y, resistance_Ohm, omega_e)
         torque = dq_torque(p, pd, pq, x, y)
@@ -214,8 +214,8 @@ def torque_speed_envelope(
         rows.append((torque, torque * n * RPM, x, y, math.hypot(x, y),
                      math.degrees(math.atan2(y, x)), math.hypot(vd, vq), pf))
     cols = [np.array(c) for c in zip(*rows, strict=True)]
-    regions = tuple(_region(c, v, current_limit_A, voltage_limit_V)
+    regions = tuple(_region(c, v, current_limit_peak_A, voltage_limit_peak_V)
                     for c, v in zip(cols[4], cols[6], strict=True))
     return Envelope(speeds, *cols, regions, float(base),
-                    dq_torque(p, psi_d, psi_q, i_d, i_q), float(current_limit_A),
-                    float(voltage_limit_V), float(resistance_Ohm))
+                    dq_torque(p, psi_d, psi_q, i_d, i_q), float(current_limit_peak_A),
+                    float(voltage_limit_peak_V), float(resistance_Ohm))

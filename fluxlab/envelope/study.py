@@ -43,8 +43,8 @@ class EnvelopeSettings:
     to ``max_speed_rpm``.
     """
 
-    current_limit_A: float
-    voltage_limit_V: float
+    current_limit_peak_A: float
+    voltage_limit_peak_V: float
     max_speed_rpm: float
     map_points: int
     map_max_current_A: float
@@ -55,9 +55,9 @@ class EnvelopeSettings:
 
     def __post_init__(self):
         problems = []
-        if not self.map_max_current_A >= self.current_limit_A > 0:
+        if not self.map_max_current_A >= self.current_limit_peak_A > 0:
             problems.append(f"flux map max current {self.map_max_current_A} A: must be at "
-                            f"least the current limit {self.current_limit_A} A (> 0)")
+                            f"least the current limit {self.current_limit_peak_A} A (> 0)")
         if not (math.isfinite(self.max_speed_rpm) and self.max_speed_rpm > 0):
             problems.append(f"max speed {self.max_speed_rpm!r} rpm: must be > 0")
         if self.speed_points < 2:
@@ -76,8 +76,8 @@ def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:
     d, op = spec.drive, spec.operating
     limit = d.current_limit_peak_A or op.overload_current_peak_A or op.current_peak_A
     values = dict(
-        current_limit_A=limit,
-        voltage_limit_V=phase_voltage_limit(d.dc_link_voltage_V, d.modulation_limit),
+        current_limit_peak_A=limit,
+        voltage_limit_peak_V=phase_voltage_limit(d.dc_link_voltage_V, d.modulation_limit),
         max_speed_rpm=d.max_speed_rpm or 2 * op.speed_rpm,
         map_points=d.flux_map_points,
         map_max_current_A=d.flux_map_max_current_peak_A or limit,
@@ -165,20 +165,20 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
     start = time.perf_counter()
     model = model or build_model(spec)
     timings = {"model": time.perf_counter() - start}
-    if operating is None or settings.current_limit_A not in operating.mtpa:
+    if operating is None or settings.current_limit_peak_A not in operating.mtpa:
         say("rated point and MTPA")
-        operating = operating_points(model, [settings.current_limit_A], workers, say)
+        operating = operating_points(model, [settings.current_limit_peak_A], workers, say)
     timings["operating_points"] = time.perf_counter() - start - sum(timings.values())
     grid = current_grid(settings.map_max_current_A, settings.map_points)
     say(f"flux map {grid.size} x {grid.size}")
     fmap = flux_map(model, grid, grid, settings.map_positions, workers, say)
     timings["flux_map"] = time.perf_counter() - start - sum(timings.values())
-    mtpa = with_engine_points(mtpa_trajectory(fmap, np.linspace(0, settings.current_limit_A,
+    mtpa = with_engine_points(mtpa_trajectory(fmap, np.linspace(0, settings.current_limit_peak_A,
                                                                 21)), operating.mtpa)
     res = phase_resistance(spec)
     speeds = np.linspace(0.0, settings.max_speed_rpm, settings.speed_points)
-    env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_A,
-                                settings.voltage_limit_V, speeds)
+    env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_peak_A,
+                                settings.voltage_limit_peak_V, speeds)
     rated = operating.rated
     iron = None
     if settings.loss_samples:
@@ -200,8 +200,8 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
 def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) -> dict:
     worst = max(ribs.barriers, key=lambda b: b.stress_Pa, default=None)
     return {
-        "current_limit_peak_A": settings.current_limit_A,
-        "voltage_limit_peak_V": settings.voltage_limit_V,
+        "current_limit_peak_A": settings.current_limit_peak_A,
+        "voltage_limit_peak_V": settings.voltage_limit_peak_V,
         "max_speed_rpm": settings.max_speed_rpm,
         "base_speed_rpm": env.base_speed_rpm,
         "base_torque_Nm": env.base_torque_Nm,

@@ -217,16 +217,10 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         rotor=RotorSpec(**rotor_values, barriers=barriers),
         materials=RegionMaterials(**materials),
         mesh=MeshSpec(**sections["mesh"]),
-        operating=OperatingSpec(
-            current_peak_A=sections["operating"]["current_peak_A"],
-            current_angle=sections["operating"]["current_angle"],
-            overload_current_peak_A=sections["operating"]["overload_current_peak_A"],
-            speed_rpm=sections["operating"]["speed"],
-        ),
+        operating=OperatingSpec(**sections["operating"]),
         raw_json=json.dumps(raw, default=_plain),
         base_dir=base_dir,
-        drive=DriveSpec(**{("max_speed_rpm" if k == "max_speed" else k): v
-                           for k, v in sections["drive"].items()}),
+        drive=DriveSpec(**sections["drive"]),
     )
     _cross_checks(spec, problems)
     problems.extend(_winding_problems(spec))

@@ -69,8 +69,9 @@ class Key:
 
     @property
     def attr(self) -> str:
-        """Attribute name in the SI spec: the file name without its unit suffix."""
-        for suffix in ("_mm", "_deg", "_rpm"):
+        """Attribute name in the SI spec: the file name without a unit suffix that the
+        conversion to SI changes (mm -> m, deg -> rad); other units stay in the name."""
+        for suffix in ("_mm", "_deg"):
             if self.name.endswith(suffix):
                 return self.name[: -len(suffix)]
         return self.name

@@ -68,7 +68,7 @@ def plot_cross_saturation(fmap, axes=None, curves: int = 5):
     return axes
 
 
-def plot_mtpa(fmap, mtpa, ax=None, current_limit_A: float | None = None,
+def plot_mtpa(fmap, mtpa, ax=None, current_limit_peak_A: float | None = None,
               legend_below: bool = True):
     """MTPA trajectory over the torque contours in the (id, iq) plane."""
     from fluxlab.envelope.interp import FluxInterpolator
@@ -85,10 +85,10 @@ def plot_mtpa(fmap, mtpa, ax=None, current_limit_A: float | None = None,
     ax.clabel(lines, fmt="%.0f", fontsize=7)
     ax.figure.colorbar(filled, ax=ax, shrink=0.85, label="torque 3/2 p (ψd iq − ψq id) (N·m)")
     ax.plot(mtpa.i_d_A, mtpa.i_q_A, "c-o", ms=3, label="MTPA trajectory")
-    if current_limit_A:
+    if current_limit_peak_A:
         t = np.linspace(0, math.pi / 2, 100)
-        ax.plot(current_limit_A * np.cos(t), current_limit_A * np.sin(t), "w--", lw=1.2,
-                label=f"current limit {current_limit_A:g} A")
+        ax.plot(current_limit_peak_A * np.cos(t), current_limit_peak_A * np.sin(t), "w--", lw=1.2,
+                label=f"current limit {current_limit_peak_A:g} A")
     ax.plot([0, min(i_d[-1], i_q[-1])], [0, min(i_d[-1], i_q[-1])], color="0.7", lw=0.8,
             ls=":", label="45 deg")
     ax.set_xlim(0, i_d[-1])
@@ -125,16 +125,16 @@ def plot_envelope(env, axes=None):
     axes[1].plot(n, env.power_W / 1e3, "-", color="tab:green")
     axes[1].set_ylabel("mechanical power (kW)")
     axes[2].plot(n, env.current_peak_A, "-", color="tab:blue", label="|i| (A, peak)")
-    axes[2].axhline(env.current_limit_A, color="tab:blue", ls="--", lw=1,
-                    label=f"current limit {env.current_limit_A:g} A")
+    axes[2].axhline(env.current_limit_peak_A, color="tab:blue", ls="--", lw=1,
+                    label=f"current limit {env.current_limit_peak_A:g} A")
     axes[2].set_ylabel("current (A, peak)")
     twin = axes[2].twinx()
     twin.plot(n, env.voltage_peak_V, "-", color="tab:purple", label="|v| (V, peak)")
-    twin.axhline(env.voltage_limit_V, color="tab:purple", ls="--", lw=1,
-                 label=f"voltage limit {env.voltage_limit_V:.0f} V")
+    twin.axhline(env.voltage_limit_peak_V, color="tab:purple", ls="--", lw=1,
+                 label=f"voltage limit {env.voltage_limit_peak_V:.0f} V")
     twin.set_ylabel("phase voltage (V, peak)")
-    twin.set_ylim(0, 1.3 * env.voltage_limit_V)  # limit lines apart from the current's
-    axes[2].set_ylim(0, 1.15 * env.current_limit_A)
+    twin.set_ylim(0, 1.3 * env.voltage_limit_peak_V)  # limit lines apart from the current's
+    axes[2].set_ylim(0, 1.15 * env.current_limit_peak_A)
     handles = axes[2].get_legend_handles_labels()
     more = twin.get_legend_handles_labels()
     axes[2].legend(handles[0] + more[0], handles[1] + more[1], fontsize=7, loc="lower left")
@@ -214,7 +214,7 @@ def envelope_page_figure(result):
              "V_max = m V_dc / √3 (space-vector modulation); flux maps from the 2-D FEM.",
              fontsize=8)
     plot_mtpa(result.flux_map, result.mtpa, ax=fig.add_subplot(grid[0:2, 0]),
-              current_limit_A=result.settings.current_limit_A, legend_below=False)
+              current_limit_peak_A=result.settings.current_limit_peak_A, legend_below=False)
     env_axes = [fig.add_subplot(grid[k, 1]) for k in range(3)]
     plot_envelope(result.envelope, axes=env_axes)
     for ax in env_axes[:2]:

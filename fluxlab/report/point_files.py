@@ -1,0 +1,61 @@
+"""The files of a mesh and of a single solved point: mesh.vtu with its region names, and the
+JSON record of a solve (SI units, names with units)."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+from fluxlab.machine.dq import power_factor
+
+__all__ = ["write_mesh", "point_record"]
+
+
+def write_mesh(machine_mesh, out: Path) -> list[Path]:
+    """Write ``mesh.vtu`` (cell data ``region``, ids in ``regions.json``) to ``out``."""
+    import meshio
+    import numpy as np
+
+    m = machine_mesh.mesh
+    names = sorted(m.subdomains)
+    region = np.zeros(m.t.shape[1], dtype=np.int32)
+    for k, name in enumerate(names):
+        region[m.subdomains[name]] = k
+    points = np.column_stack([m.p.T, np.zeros(m.p.shape[1])]) * 1e3  # mm, for viewing
+    meshio.write(
+        out / "mesh.vtu",
+        meshio.Mesh(points, [("triangle", m.t.T)],
+                    cell_data={"region": [region],
+                               "rotor_part": [machine_mesh.rotor_element.astype(np.int32)]}),
+    )
+    (out / "regions.json").write_text(json.dumps(
+        {"units": "mm", "regions": dict(enumerate(names))}, indent=1))
+    return [out / "mesh.vtu", out / "regions.json"]
+
+
+def point_record(model, point) -> dict:
+    """JSON-able record of one solved point (SI units, names with units)."""
+    sol = point.solution
+    return {
+        "current_peak_A": point.current_peak_A,
+        "current_angle_deg": math.degrees(point.current_angle),
+        "position_deg": math.degrees(point.position),
+        "rotor_step": point.step,
+        "i_d_A": point.i_d,
+        "i_q_A": point.i_q,
+        "psi_d_Wb": point.psi_d,
+        "psi_q_Wb": point.psi_q,
+        "torque_maxwell_Nm": point.torque_maxwell_Nm,
+        "torque_dq_Nm": point.torque_dq_Nm,
+        "power_factor": power_factor(point.psi_d, point.psi_q, point.i_d, point.i_q),
+        "energy_J": model.scale * sol.energy_per_m,
+        "coenergy_J": model.scale * sol.coenergy_per_m,
+        "b_local_peak_T": float(sol.b_norm.max()),
+        "newton_iterations": sol.iterations,
+        "newton_rtol": model.newton_rtol,
+        "newton_relative_residuals": list(sol.history),
+        "nodes": int(model.mesh.mesh.p.shape[1]),
+        "element_order": model.spec.mesh.element_order,
+        "currents": "peak phase amperes; angle from the d-axis",
+    }
