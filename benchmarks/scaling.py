@@ -18,7 +18,7 @@ import os
 import time
 from pathlib import Path
 
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads (MEASUREMENTS.md)
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads (DEVELOPERS.md)
 
 import numpy as np  # noqa: E402
 

@@ -8,11 +8,11 @@ one factorisation and solve).
 
 "One factorisation and solve" is what the backend costs for a matrix it has not seen:
 fill-reducing ordering, symbolic analysis, numeric factorisation and one solve.  That is
-how the yardstick of ../shared/MEASUREMENTS.md counts: its warm position (3 Newton steps,
-0.12-0.15 s) against 4 ms assembly plus a PARDISO factorisation of 6 ms with 34 ms
+how the project's speed target was counted: a warm position of 3 Newton steps
+(0.12-0.15 s) against 4 ms assembly plus a PARDISO factorisation of 6 ms with 34 ms
 analysis per pattern is a ratio of about 3, the limit the target of 4 leaves room above;
-counted against the 6 ms numeric factorisation alone, the yardstick itself would stand at
-13.  Every rotor step has a new pattern (the sliding tie), so each position pays one such
+counted against the 6 ms numeric factorisation alone, that reference would stand at 13.
+Every rotor step has a new pattern (the sliding tie), so each position pays one such
 factorisation and then numeric refactorisations of it.  The ratio against one assembly and
 a numeric refactorisation alone is printed as well: it is about 1.4 times the Newton
 steps a warm position needs.
@@ -32,7 +32,7 @@ import platform
 import time
 from pathlib import Path
 
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads (MEASUREMENTS.md)
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # before numpy loads (DEVELOPERS.md)
 
 import numpy as np  # noqa: E402
 import scipy  # noqa: E402

@@ -90,7 +90,7 @@ def test_cross_saturation_has_the_expected_sign(saturable_map):
 def test_map_torque_agrees_with_maxwell_torque(saturable_model):
     # Energy consistency: the mean over a torque period of the Maxwell-stress torque (Arkkio
     # 1987) equals 3/2 p (psi_d iq - psi_q id) of the mean flux linkages (co-energy
-    # balance over a period; DESIGN.md). Issue tolerance 2 % (measured ~0.7 % with 4
+    # balance over a period; DEVELOPERS.md, Averaging). Tolerance 2 % (measured ~0.7 % with 4
     # positions, the rest is the position sampling of the ripple).
     f = flux_map(saturable_model, [0.0, 25.0], [0.0, 25.0], positions=4)
     assert f.positions == 4

@@ -325,7 +325,7 @@ def _serve(conn) -> None:
 class Worker:
     """One spawned worker process with a hard time limit per table; replaced when it hangs
     or dies. ``spawn``, not ``fork``: forking a process that holds BLAS or gmsh threads can
-    deadlock the child (see shared/MEASUREMENTS.md)."""
+    deadlock the child (DEVELOPERS.md, Speed)."""
 
     def __init__(self) -> None:
         self._ctx = multiprocessing.get_context("spawn")
@@ -449,7 +449,7 @@ def check_meshed(raw: dict, out: dict) -> None:
     st_ = raw["stator"]
     r_bore, r_out = st_["bore_diameter_mm"] / 2 * mm, st_["outer_diameter_mm"] / 2 * mm
     r_rotor = r_bore - st_["airgap_mm"] * mm
-    r_slide = r_rotor + st_["airgap_mm"] / 2 * mm  # the middle of the gap (DESIGN.md)
+    r_slide = r_rotor + st_["airgap_mm"] / 2 * mm  # the middle of the gap (README, Model)
     phi = out["sector_angle"]
     regions = out["region_elements"]
     assert set(regions) == _expected_regions(raw, phi)
@@ -476,7 +476,7 @@ def check_meshed(raw: dict, out: dict) -> None:
     for name, (got, want) in cases.items():
         assert got == pytest.approx(want, rel=AREA_TOL), (name, got, want)
     # every barrier ends a tangential rib below the rotor surface (its ends are clipped
-    # by that circle, DESIGN.md "Rotor geometry"); mesh nodes lie on the circle, so 1 um
+    # by that circle: fluxlab/geometry/rotor.py); mesh nodes lie on the circle, so 1 um
     # is round-off, not mesh error
     r_rib = r_rotor - raw["rotor"]["tangential_rib_mm"] * mm
     for name, reach in out["barrier_reach"].items():

@@ -289,7 +289,7 @@ class PardisoSolver:
     ----------
     threads
         MKL threads (process-wide setting).  Default 1: on two cores the second thread
-        fights the BLAS pools and a parallel sweep (see MEASUREMENTS.md).
+        fights the BLAS pools and a parallel sweep (DEVELOPERS.md, Speed).
     ordering
         PARDISO fill-in ordering: 2 METIS nested dissection (default), 0 minimum degree.
 

@@ -34,7 +34,8 @@ def flux_linkage_abc(model: MachineModel, solution: FieldSolution) -> np.ndarray
     """Flux linkage of phases a, b, c, Wb-turns.
 
     psi_k = length * sectors * sum over coil sides of (signed turns / side area / parallel
-    paths) * int A dS: the mean potential of a coil side times its turns (DESIGN.md).
+    paths) * int A dS: the mean potential of a coil side times its turns (the coil side's
+    flux linkage for a uniform current density; common practice, no source).
     """
     return model.scale * (model.conductor_weight.T @ element_integrals_of_a(model, solution))
 

@@ -5,7 +5,8 @@ memory, so a forked child (copy-on-write: no pickling, no imports) halves the wa
 two cores. Only the job's return value (a list of paths) travels back through a pipe.
 Where ``fork`` is not available (Windows) the jobs run here, one after the other.
 The child runs no sparse solver: fork is unsafe only for threaded numerical libraries
-(MEASUREMENTS.md), which drawing does not use.
+(a forked CHOLMOD deadlocked and a threaded MKL livelocked when this was measured on two
+cores; DEVELOPERS.md, Speed), which drawing does not use.
 """
 
 from __future__ import annotations

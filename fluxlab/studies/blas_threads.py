@@ -1,7 +1,7 @@
 """One BLAS/OpenMP thread per process, for this process and the workers it starts.
 
 On 2 cores, two single-threaded workers gave 1.9x while oversubscribed threads gave
-0.4-1.3x (shared/MEASUREMENTS.md, "Pitfalls seen"). Spawned children read the thread
+0.4-1.3x (DEVELOPERS.md, Speed). Spawned children read the thread
 variables from the environment when numpy loads, which may be before any initializer
 runs, so the variables are set in the parent while its pool lives; libraries already
 loaded are limited through threadpoolctl. No numerical library is imported at the top.

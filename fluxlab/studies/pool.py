@@ -2,7 +2,7 @@
 
 Workers start with the ``spawn`` method (``fork`` deadlocks some sparse solvers) and one
 BLAS thread each: on two cores, competing thread pools slow the factorisations several
-times (MEASUREMENTS.md). A :class:`StudyPool` can be opened before the machine is meshed:
+times (DEVELOPERS.md, Speed). A :class:`StudyPool` can be opened before the machine is meshed:
 its workers import the numerical libraries meanwhile (about 1.5 s each), and each builds
 the model once, from the pickled spec and mesh, at its first study of that model (the
 assembly is cheap next to the solves).

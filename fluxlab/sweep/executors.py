@@ -101,7 +101,7 @@ class LocalPoolExecutor(Executor):
     """A pool of local worker processes (``spawn`` start method, one BLAS thread each).
 
     ``spawn`` (not ``fork``): forked workers deadlocked in CHOLMOD and livelocked in
-    threaded MKL in earlier measurements (shared/MEASUREMENTS.md). A pool broken by a dead
+    threaded MKL in earlier measurements (DEVELOPERS.md, Speed). A pool broken by a dead
     worker is replaced, so the sweep goes on.
 
     Parameters

@@ -71,8 +71,8 @@ def rotor_copies(machine: MachineMesh, rotor_angle: float) -> list[tuple[float, 
     """How to draw the rotor part inside the stator sector at a rotor angle.
 
     The rotor part turned by ``rotor_angle`` reaches past the sector end; that piece is
-    drawn as its image one sector back (the sector repeats with ``edge_sign``, DESIGN.md,
-    Symmetry). Both copies are clipped to the sector.
+    drawn as its image one sector back (the sector repeats with ``edge_sign``: the machine
+    is periodic or anti-periodic over one sector). Both copies are clipped to the sector.
 
     Returns
     -------
