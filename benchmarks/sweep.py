@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import sys
 import tempfile
 import time
 from pathlib import Path
@@ -52,8 +53,9 @@ def main() -> None:
     parser.add_argument("--studies", default="point", choices=("point", "full"))
     args = parser.parse_args()
     evaluator = None
-    if args.fake:
-        evaluator = "fluxlab.sweep.testing:fake_evaluate"
+    if args.fake:  # the tests' double; spawned workers inherit this sys.path
+        sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
+        evaluator = "fake_evaluator:fake_evaluate"
         os.environ.setdefault("FLUXLAB_FAKE_EVAL_WORK", "6")
     sweep = _sweep(args.studies)
     print(f"8 candidates, {args.studies} studies, "

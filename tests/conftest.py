@@ -11,7 +11,8 @@ from pathlib import Path
 import pytest
 from paths import DEMO, GEOMETRIES, demo_table
 
-from fluxlab.spec.machine_file import MachineSpec, load_machine
+from fluxlab.spec.machine_file import load_machine
+from fluxlab.spec.types import MachineSpec
 
 
 @pytest.fixture(scope="session")

@@ -16,7 +16,8 @@ from paths import DEMO, GEOMETRIES, demo_table
 from fluxlab.errors import GeometryError, SpecError
 from fluxlab.geometry.csg import to_shapely
 from fluxlab.geometry.rotor import barrier_placement, barrier_shape, opening_angles
-from fluxlab.spec.machine_file import BarrierSpec, RotorSpec, load_machine, machine_from_dict
+from fluxlab.spec.machine_file import load_machine, machine_from_dict
+from fluxlab.spec.types import BarrierSpec, RotorSpec
 
 R_ROTOR = 0.0675  # m, the demo rotor (bore 136 mm, air gap 0.5 mm)
 #: The brief's tolerance on the opening middle, deg.

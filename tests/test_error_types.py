@@ -68,7 +68,7 @@ def test_unimportable_sweep_evaluator_is_a_value_error():
     from fluxlab.sweep.run import evaluator_reference
 
     with pytest.raises(ValueError, match="evaluator = .*importable") as info:
-        evaluator_reference(lambda spec, studies: None, None)
+        evaluator_reference(lambda spec, studies: None)
     assert not isinstance(info.value, FluxlabError)
 
 

@@ -18,7 +18,7 @@ import pytest
 from paths import REPO_ROOT
 
 import fluxlab
-from fluxlab.spec.machine_file import MachineSpec
+from fluxlab.spec.types import MachineSpec
 
 README = REPO_ROOT / "README.md"
 #: The key the snippet changes and the value it sets (README.md, "The same from Python").

@@ -5,7 +5,7 @@ import pytest
 from paths import GEOMETRIES
 
 from fluxlab.errors import SpecError
-from fluxlab.sweep import candidate_key, make_candidates, plan_points, sweep_from_dict
+from fluxlab.sweep import candidate_key, load_sweep, make_candidates, plan_points, sweep_from_dict
 
 
 def _sweep(parameters, plan=None, **top):
@@ -108,6 +108,19 @@ def test_plans_are_reproducible_from_the_seed():
         assert keys(kind, 1)[0] != keys(kind, 2)[0]
         turns = [p["winding.turns_per_coil"] for p in keys(kind, 1)[1]]
         assert all(isinstance(t, int) and 9 <= t <= 13 for t in turns)
+
+
+def test_a_sweep_file_cannot_name_an_evaluator(tmp_path):
+    """Code to run is chosen from Python only: ``evaluator`` is an unknown key like any other."""
+    message = _problems([{"path": END1, "values": [20]}], evaluator="os:system")
+    assert ("evaluator: unknown key (known keys: name, base, studies, plan, fixed, parameters)"
+            in message)
+    sweep = tmp_path / "sweep.toml"
+    sweep.write_text(f'base = "{(GEOMETRIES / "demo_fan_drive.toml").as_posix()}"\n'
+                     'evaluator = "fake_evaluator:fake_evaluate"\n'
+                     f'[[parameters]]\npath = "{END1}"\nvalues = [20.0]\n')
+    with pytest.raises(SpecError, match="evaluator: unknown key"):
+        load_sweep(sweep)
 
 
 def test_key_depends_on_machine_studies_and_evaluator_only():

@@ -1,8 +1,10 @@
 """Running sweeps: rejected and failed candidates, resuming after SIGKILL and Ctrl-C, the
 Dask executor, the command line and its files.
 
-Every run uses the fake evaluator of fluxlab.sweep.testing (a testing hook): the sweep
-machinery is under test here, not the field model.
+Every run uses the test double of tests/fake_evaluator.py, passed through the Python API
+(a sweep file cannot name an evaluator): the sweep machinery is under test here, not the
+field model. Runs in a subprocess and the command-line run make it the default evaluator of
+run_sweep in their own process (candidate keys still record it as non-default).
 """
 
 import csv
@@ -17,21 +19,22 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fake_evaluator import fake_evaluate, fake_summary
 from paths import DEMO
 
 from fluxlab.cli import main
 from fluxlab.spec.machine_file import load_machine, replace_path
-from fluxlab.sweep import ResultStore, run_sweep
-from fluxlab.sweep.testing import fake_summary
+from fluxlab.sweep import ResultStore, load_sweep, make_candidates, run_sweep
 
-FAKE = "fluxlab.sweep.testing:fake_evaluate"
+FAKE = "fake_evaluator:fake_evaluate"
+TESTS = Path(__file__).resolve().parent  # holds fake_evaluator.py
 END1 = "rotor.barriers[1].end_angle_deg"
 SPEED = "operating.speed_rpm"
 
 
 def _write_sweep(folder: Path, parameters: dict, studies: str = "point") -> Path:
     lines = [f"base = {json.dumps(str(DEMO))}", f'studies = "{studies}"',
-             f'evaluator = "{FAKE}"', "[plan]", 'kind = "grid"']
+             "[plan]", 'kind = "grid"']
     for path, values in parameters.items():
         lines += ["[[parameters]]", f'path = "{path}"', f"values = {json.dumps(values)}"]
     path = folder / "sweep.toml"
@@ -46,7 +49,7 @@ def _updated(store_path: Path) -> dict:
 
 def test_invalid_and_failing_candidates_are_stored_and_the_sweep_goes_on(tmp_path):
     sweep = _write_sweep(tmp_path, {END1: [22.0, 26.0, 80.0], SPEED: [1500.0, 99999.0]})
-    rows = run_sweep(sweep, tmp_path / "out", workers=2)
+    rows = run_sweep(sweep, tmp_path / "out", workers=2, evaluator=fake_evaluate)
     status = {(r[END1], r[SPEED]): r["status"] for r in rows}
     assert status == {(22.0, 1500.0): "done", (22.0, 99999.0): "failed",
                       (26.0, 1500.0): "done", (26.0, 99999.0): "failed",
@@ -64,10 +67,13 @@ def test_invalid_and_failing_candidates_are_stored_and_the_sweep_goes_on(tmp_pat
     with ResultStore(tmp_path / "out" / "results.sqlite") as store:
         assert len(store.statuses()) == 6
         assert "end_angle_deg = 80" in store.get(rows[4]["key"]).message
+    # the fake evaluator is part of every key: its results never stand in for real ones
+    assert [r["key"] for r in rows] == [c.key for c in make_candidates(load_sweep(sweep), FAKE)]
+    assert not {r["key"] for r in rows} & {c.key for c in make_candidates(load_sweep(sweep))}
     before = _updated(tmp_path / "out" / "results.sqlite")
-    assert run_sweep(sweep, tmp_path / "out", workers=2) == rows
+    assert run_sweep(sweep, tmp_path / "out", workers=2, evaluator=FAKE) == rows  # by name
     assert _updated(tmp_path / "out" / "results.sqlite") == before  # nothing re-evaluated
-    run_sweep(sweep, tmp_path / "out", workers=2, retry_failed=True)
+    run_sweep(sweep, tmp_path / "out", workers=2, retry_failed=True, evaluator=fake_evaluate)
     with ResultStore(tmp_path / "out" / "results.sqlite") as store:
         attempts = {r.status: set() for r in store.results()}
         for r in store.results():
@@ -78,7 +84,7 @@ def test_invalid_and_failing_candidates_are_stored_and_the_sweep_goes_on(tmp_pat
 def test_a_crashed_worker_fails_its_candidate_and_the_sweep_goes_on(tmp_path):
     # speed 77777 makes the fake evaluator end its process abruptly (a mesher crash)
     sweep = _write_sweep(tmp_path, {SPEED: [1500.0, 77777.0, 1600.0, 1700.0, 1800.0]})
-    rows = run_sweep(sweep, tmp_path / "out", workers=1)
+    rows = run_sweep(sweep, tmp_path / "out", workers=1, evaluator=fake_evaluate)
     assert len(rows) == 5
     assert rows[1]["status"] == "failed" and "worker lost" in rows[1]["message"]
     # Tasks queued in the broken pool are lost with it (at most the in-flight count, twice
@@ -98,14 +104,17 @@ def reference_16(tmp_path_factory):
     """The 16-candidate sweep run once without interruption: (sweep file, its rows)."""
     folder = tmp_path_factory.mktemp("reference")
     sweep = _write_sweep(folder, _SWEEP_16)
-    return sweep, run_sweep(sweep, folder / "out", workers=2)
+    return sweep, run_sweep(sweep, folder / "out", workers=2, evaluator=fake_evaluate)
 
 
 def _start_cli(sweep: Path, out: Path, delay_s: float) -> subprocess.Popen:
-    code = ("import sys; from fluxlab.cli import main; "
+    """``fluxlab sweep`` in a Python subprocess whose run_sweep defaults to the fake."""
+    code = ("import sys; import fluxlab.sweep.run as run; from fluxlab.cli import main; "
+            f"run.DEFAULT_EVALUATOR = {FAKE!r}; "
             f"sys.exit(main(['sweep', {str(sweep)!r}, '--out', {str(out)!r}, "
             "'--workers', '2', '--no-progress']))")
-    env = dict(os.environ, FLUXLAB_FAKE_EVAL_DELAY_S=str(delay_s))
+    pythonpath = os.pathsep.join(filter(None, [str(TESTS), os.environ.get("PYTHONPATH")]))
+    env = dict(os.environ, FLUXLAB_FAKE_EVAL_DELAY_S=str(delay_s), PYTHONPATH=pythonpath)
     # A session of its own: the kill reaches the sweep and its worker processes, as when a
     # machine goes down, and nothing else.
     return subprocess.Popen([sys.executable, "-c", code], env=env, start_new_session=True,
@@ -140,7 +149,7 @@ def test_sigkill_then_rerun_equals_an_uninterrupted_run(tmp_path, reference_16):
     survived = _updated(out / "results.sqlite")
     assert 4 <= len(survived) < 16, "the sweep was not stopped part way"
 
-    resumed = run_sweep(sweep, out, workers=2)
+    resumed = run_sweep(sweep, out, workers=2, evaluator=fake_evaluate)
     assert resumed == reference  # statuses, results, messages and keys, row by row
     assert [r["candidate"] for r in resumed] == list(range(16))
     after = _updated(out / "results.sqlite")
@@ -162,7 +171,7 @@ def test_ctrl_c_stops_cleanly_and_says_how_to_resume(tmp_path, reference_16):
     with open(out / "results.csv", newline="") as f:
         statuses = [r["status"] for r in csv.DictReader(f)]
     assert len(statuses) == 16 and "pending" in statuses
-    assert run_sweep(sweep, out, workers=2) == reference
+    assert run_sweep(sweep, out, workers=2, evaluator=fake_evaluate) == reference
 
 
 def test_dask_local_cluster_gives_the_same_results_as_the_local_pool(tmp_path):
@@ -170,18 +179,25 @@ def test_dask_local_cluster_gives_the_same_results_as_the_local_pool(tmp_path):
 
     sweep = _write_sweep(tmp_path, {END1: [22.0, 26.0, 80.0], SPEED: [1500.0, 99999.0]},
                          studies="full")
-    local = run_sweep(sweep, tmp_path / "local", workers=2)
+    local = run_sweep(sweep, tmp_path / "local", workers=2, evaluator=fake_evaluate)
+    # processes=False: the Dask workers are threads of this process, where pytest has put
+    # tests/ on sys.path, so they import fake_evaluator by name as the local pool does
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp",
                       host="127.0.0.1", dashboard_address=None) as cluster:
         assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")
-        remote = run_sweep(sweep, tmp_path / "dask", scheduler=cluster.scheduler_address)
+        remote = run_sweep(sweep, tmp_path / "dask", scheduler=cluster.scheduler_address,
+                           evaluator=FAKE)
     assert remote == local
     with ResultStore(tmp_path / "local" / "results.sqlite") as a, \
             ResultStore(tmp_path / "dask" / "results.sqlite") as b:
         assert {r.key: r.curves for r in a.results()} == {r.key: r.curves for r in b.results()}
 
 
-def test_command_line_writes_table_figures_and_sheets(tmp_path, capsys):
+def test_command_line_writes_table_figures_and_sheets(tmp_path, capsys, monkeypatch):
+    import fluxlab.sweep.run
+
+    # the command line has no evaluator option: make the fake run_sweep's default here
+    monkeypatch.setattr(fluxlab.sweep.run, "DEFAULT_EVALUATOR", FAKE)
     sweep = _write_sweep(tmp_path, {END1: [22.0, 24.0, 26.0, 80.0]}, studies="full")
     out = tmp_path / "out"
     assert main(["sweep", str(sweep), "--out", str(out), "--workers", "2",
@@ -194,6 +210,8 @@ def test_command_line_writes_table_figures_and_sheets(tmp_path, capsys):
     assert {"torque_mean_Nm", "torque_ripple_pct", "saliency_apparent", "message"} <= set(rows[0])
     assert rows[3]["status"] == "rejected" and "end_angle_deg = 80" in rows[3]["message"]
     assert "\n" not in rows[3]["message"]
+    # the fake really ran, under its own keys
+    assert [r["key"] for r in rows] == [c.key for c in make_candidates(load_sweep(sweep), FAKE)]
 
     folders = []
     with ResultStore(out / "results.sqlite") as store:  # evaluate-style output folders

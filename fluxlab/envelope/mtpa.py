@@ -11,6 +11,7 @@ import numpy as np
 from fluxlab.envelope.fluxmap import FluxMap
 from fluxlab.envelope.interp import FluxInterpolator
 from fluxlab.machine.dq import dq_torque
+from fluxlab.studies.operating_point import peak_angle
 
 __all__ = ["MTPATrajectory", "mtpa_point", "mtpa_trajectory", "with_engine_points"]
 
@@ -52,22 +53,18 @@ def with_engine_points(traj: MTPATrajectory, points) -> MTPATrajectory:
 def mtpa_point(interp: FluxInterpolator, current: float, samples: int = 181) -> float:
     """MTPA current angle, rad in [0, pi/2], at one current amplitude (peak A).
 
-    A grid of ``samples`` angles finds the best one; a bounded scalar search (Brent,
-    scipy ``minimize_scalar``) refines it within one grid step either side.
+    The torque of the interpolated maps on a grid of ``samples`` angles, then the maximiser
+    of the FEM studies (:func:`fluxlab.studies.operating_point.peak_angle`) to 1e-7 rad.
     """
-    from scipy.optimize import minimize_scalar
-
     if current <= 0:
         return math.pi / 4  # undefined at zero current: the linear machine's value
-    gamma = np.linspace(0.0, math.pi / 2, samples)
-    torque = interp.torque(current * np.cos(gamma), current * np.sin(gamma))
-    k = int(np.argmax(torque))
-    h = gamma[1] - gamma[0]
-    res = minimize_scalar(
-        lambda g: -float(interp.torque(current * math.cos(g), current * math.sin(g))),
-        bounds=(max(0.0, gamma[k] - h), min(math.pi / 2, gamma[k] + h)), method="bounded",
-        options={"xatol": 1e-7})
-    return float(res.x) if -res.fun >= torque[k] else float(gamma[k])
+
+    def torque(gamma: float) -> float:
+        return float(interp.torque(current * math.cos(gamma), current * math.sin(gamma)))
+
+    known = {float(g): torque(g) for g in np.linspace(0.0, math.pi / 2, samples)}
+    angle = peak_angle(torque, known, 1e-7)
+    return max(known, key=known.get) if angle is None else angle
 
 
 def mtpa_trajectory(fmap: FluxMap, currents: Sequence[float] | None = None) -> MTPATrajectory:

@@ -43,14 +43,6 @@ from fluxlab.spec.types import (
 )
 
 __all__ = [
-    "BarrierSpec",
-    "StatorSpec",
-    "WindingSpec",
-    "RotorSpec",
-    "MeshSpec",
-    "OperatingSpec",
-    "DriveSpec",
-    "MachineSpec",
     "load_machine",
     "machine_from_dict",
     "replace_path",

@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import logging
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -42,6 +42,7 @@ __all__ = [
     "point_mean",
     "MTPAResult",
     "mtpa_search",
+    "peak_angle",
     "OperatingPoints",
 ]
 
@@ -207,49 +208,60 @@ def mtpa_search(model, current_peak: float, known: Sequence[AveragedPoint],
     nearest angle solved so far (``fields``: current angle in rad -> start vector per rotor
     step, extended here).
     """
-    from scipy.optimize import minimize_scalar
 
     steps = averaging_steps(model) if steps is None else steps
     fields = {} if fields is None else fields
     seen = {pt.current_angle: pt for pt in known}
     new: list[AveragedPoint] = []
 
-    def negative_torque(gamma: float) -> float:
-        if gamma not in seen:
-            starts = dict(fields[min(fields, key=lambda a: abs(a - gamma))]) if fields else {}
-            seen[gamma] = averaged_point(model, current_peak, gamma, steps, starts)
-            fields[gamma] = starts
-            new.append(seen[gamma])
-        return -seen[gamma].torque_Nm
+    def torque(gamma: float) -> float:  # peak_angle asks for each angle once
+        starts = dict(fields[min(fields, key=lambda a: abs(a - gamma))]) if fields else {}
+        seen[gamma] = averaged_point(model, current_peak, gamma, steps, starts)
+        fields[gamma] = starts
+        new.append(seen[gamma])
+        return seen[gamma].torque_Nm
 
-    bracket = _bracket(seen, negative_torque, math.radians(tolerance_deg))
-    if bracket is None:
+    values = {gamma: pt.torque_Nm for gamma, pt in seen.items()}
+    angle = peak_angle(torque, values, math.radians(tolerance_deg))
+    if angle is None:
         log.warning("torque at %g A peaks at the edge of 0-90 deg of current angle (no "
                     "saliency?): the MTPA is that edge point", current_peak)
-    else:
-        # Brent's xtol is relative to the angle: at most pi/2 rad, so this keeps the error
-        # (twice the final tolerance) within tolerance_deg
-        minimize_scalar(negative_torque, bracket=bracket, method="brent",
-                        options={"xtol": math.radians(tolerance_deg) / math.pi})
     best = max(seen.values(), key=lambda pt: pt.torque_Nm)
     return MTPAResult(best, tuple(new), tolerance_deg, len(new) * len(steps))
 
 
-def _bracket(seen: dict[float, AveragedPoint], negative_torque, tolerance: float
-             ) -> tuple[float, float, float] | None:
-    """Angles lo < mid < hi (rad) with the torque at mid above both ends, or None when the
-    torque keeps rising to 0 or 90 deg (a machine without saliency: no interior maximum)
-    closer than ``tolerance`` (rad) to the edge."""
+def peak_angle(value: Callable[[float], float], known: dict[float, float], tolerance: float
+               ) -> float | None:
+    """The current angle in [0, pi/2] (rad) where ``value`` is largest, to ``tolerance`` rad.
+
+    ``known``: angle -> value already evaluated (a grid; extended with every new angle). The
+    peak is bracketed between the best known angle and its neighbours, bisecting towards 0
+    or pi/2 while the best lies at the edge, then found by Brent's method (scipy
+    ``minimize_scalar`` with the bracket: parabolic steps, golden sections where they fail).
+    Returns None when ``value`` keeps rising to 0 or pi/2 (no interior maximum; the edge is
+    then the best of ``known``). One maximiser for every MTPA in fluxlab.
+    """
+    from scipy.optimize import minimize_scalar
+
+    def negative(gamma: float) -> float:
+        if gamma not in known:
+            known[gamma] = value(gamma)
+        return -known[gamma]
+
     while True:
-        angles = sorted(seen)
-        k = max(range(len(angles)), key=lambda i: seen[angles[i]].torque_Nm)
+        angles = sorted(known)
+        k = max(range(len(angles)), key=lambda i: known[angles[i]])
         if 0 < k < len(angles) - 1:
-            return angles[k - 1], angles[k], angles[k + 1]
-        edge = 0.0 if k == 0 else math.pi / 2  # bisect towards pure i_d or pure i_q
-        step = (edge - angles[k]) / 2
+            break
+        step = ((0.0 if k == 0 else math.pi / 2) - angles[k]) / 2  # towards pure i_d or i_q
         if abs(step) < tolerance:
             return None
-        negative_torque(angles[k] + step)
+        negative(angles[k] + step)
+    # Brent's xtol is relative to the angle (at most pi/2 rad): the error, twice the final
+    # tolerance, stays within ``tolerance``
+    minimize_scalar(negative, bracket=(angles[k - 1], angles[k], angles[k + 1]),
+                    method="brent", options={"xtol": tolerance / math.pi})
+    return max(known, key=known.get)
 
 
 @dataclass(frozen=True)

@@ -4,8 +4,8 @@ The key is the SHA-256 of the canonical JSON (sorted keys, no spaces) of the res
 machine table, the studies, the fluxlab version, a digest of fluxlab's own source files
 (an edited working copy keeps its version number) and of the B-H files the machine refers
 to, so a result is reused exactly when the same machine is evaluated the same way by the
-same code. A non-default evaluator (a test hook) is part of the key too, so fake results
-never stand in for real ones.
+same code. A non-default evaluator (chosen from Python, ``run_sweep(..., evaluator=...)``;
+a test double, say) is part of the key too, so its results never stand in for real ones.
 """
 
 from __future__ import annotations
@@ -85,14 +85,14 @@ def candidate_key(machine: dict, studies: str, evaluator: str | None = None,
 def make_candidates(sweep: SweepSpec, evaluator: str | None = None) -> list[Candidate]:
     """Resolve every plan point of ``sweep`` into a :class:`Candidate` (no validation yet).
 
-    ``evaluator`` overrides the sweep file's own evaluator reference in the key.
+    ``evaluator`` is the ``"module:function"`` reference of the evaluation function, for the
+    key (None or :data:`DEFAULT_EVALUATOR`: the real evaluation).
     """
-    ref = evaluator if evaluator is not None else sweep.evaluator
     out = []
     for number, values in enumerate(plan_points(sweep)):
         machine = copy.deepcopy(sweep.base_raw)
         for path, value in values.items():
             set_path(machine, path, value)
-        key = candidate_key(machine, sweep.studies, ref, sweep.base_dir)
+        key = candidate_key(machine, sweep.studies, evaluator, sweep.base_dir)
         out.append(Candidate(number, values, machine, key))
     return out

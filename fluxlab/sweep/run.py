@@ -25,11 +25,12 @@ log = logging.getLogger(__name__)
 RESULTS_CSV = "results.csv"
 
 
-def evaluator_reference(evaluator: str | Callable | None, sweep: SweepSpec) -> str:
-    """The ``"module:function"`` name of the evaluator to use (the argument, the sweep
-    file's ``evaluator`` testing hook, or :func:`fluxlab.studies.evaluate.evaluate`)."""
+def evaluator_reference(evaluator: str | Callable | None) -> str:
+    """The ``"module:function"`` name of the evaluator to use: the argument (a function or
+    its name), or for None :data:`DEFAULT_EVALUATOR`, the real evaluation
+    :func:`fluxlab.studies.evaluate.evaluate`."""
     if evaluator is None:
-        return sweep.evaluator or DEFAULT_EVALUATOR
+        return DEFAULT_EVALUATOR
     if isinstance(evaluator, str):
         return evaluator
     ref = f"{evaluator.__module__}:{evaluator.__qualname__}"
@@ -92,8 +93,9 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
         Evaluate again the candidates stored as failed (rejected ones are never retried:
         their machine file is invalid, which a rerun cannot change).
     evaluator
-        Testing hook: the evaluation function, or its ``"module:function"`` name;
-        default the sweep file's ``evaluator`` or :func:`fluxlab.studies.evaluate.evaluate`.
+        The evaluation function, or its ``"module:function"`` name (a test double, say);
+        default :func:`fluxlab.studies.evaluate.evaluate`. A sweep file cannot name one.
+        A non-default evaluator is part of each candidate's key.
     progress
         Draw a progress bar on stderr.
 
@@ -116,7 +118,7 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
         sweep = load_sweep(sweep)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    ref = evaluator_reference(evaluator, sweep)
+    ref = evaluator_reference(evaluator)
     candidates = make_candidates(sweep, ref)
     with ResultStore(out / STORE_NAME) as store:
         todo = _to_run(candidates, store.statuses(), retry_failed)

@@ -23,9 +23,9 @@ A sweep file is TOML::
     path = "rotor.barriers[0].width_mm"
     values = [2.5, 3.0, 3.5]
 
-Values are in the machine file's own units (the unit is in the key name). ``evaluator =
-"module:function"`` names another evaluation function; it is a testing hook (see
-:mod:`fluxlab.sweep.testing`), not a modelling option.
+Values are in the machine file's own units (the unit is in the key name). A sweep file
+names no code: what evaluates the candidates is chosen from Python only
+(``run_sweep(..., evaluator=...)``, default the real evaluation).
 """
 
 from __future__ import annotations
@@ -54,7 +54,7 @@ __all__ = [
 PLAN_KINDS = ("grid", "random", "lhs")
 STUDIES = ("point", "full")
 MAX_CANDIDATES = 1_000_000  # past this a grid is a typing mistake, not a sweep
-_TOP_KEYS = ("name", "base", "studies", "evaluator", "plan", "fixed", "parameters")
+_TOP_KEYS = ("name", "base", "studies", "plan", "fixed", "parameters")
 _PLAN_KEYS = ("kind", "samples", "seed")
 _PARAMETER_KEYS = ("path", "values", "low", "high", "steps")
 
@@ -101,7 +101,6 @@ class SweepSpec:
     plan: PlanSpec
     parameters: tuple[ParameterSpec, ...]
     fixed: dict
-    evaluator: str | None
 
 
 def _is_number(value: Any) -> bool:
@@ -274,9 +273,6 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
     studies = data.get("studies", "point")
     if studies not in STUDIES:
         problems.append(f"studies = {studies!r}: must be one of {', '.join(STUDIES)}")
-    evaluator = data.get("evaluator")
-    if evaluator is not None and (not isinstance(evaluator, str) or evaluator.count(":") != 1):
-        problems.append(f"evaluator = {evaluator!r}: must be \"module:function\"")
     plan = _read_plan(data.get("plan", {}), problems)
     items = data.get("parameters")
     if not isinstance(items, list) or not items:
@@ -309,7 +305,6 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
         plan=plan,
         parameters=parameters,
         fixed=fixed,
-        evaluator=evaluator,
     )
 
 

@@ -1,9 +1,12 @@
-"""Testing hook: a fake, deterministic evaluator with the shape of the real one.
+"""A test double for the sweep tests: a fake, deterministic evaluator shaped like the real one.
 
-Select it with ``evaluator = "fluxlab.sweep.testing:fake_evaluate"`` in a sweep file (or
-``run_sweep(..., evaluator=...)``). Its numbers are made up from simple closed-form
-expressions of the rotor dimensions: they are for testing the sweep machinery (storage,
-resuming, executors, plots) and never a model of a machine.
+Not part of fluxlab. The sweep tests pass it through the Python API, as a function or by
+name: ``run_sweep(..., evaluator=fake_evaluate)`` or
+``run_sweep(..., evaluator="fake_evaluator:fake_evaluate")`` (pytest puts ``tests/`` on
+``sys.path``; a subprocess needs it on ``PYTHONPATH``). Its numbers are made up from simple
+closed-form expressions of the rotor dimensions: they exercise the sweep machinery
+(storage, resuming, executors, plots) and never model a machine. Its summary has the key
+names of the real one (``saliency_apparent``, ``Ld_apparent_H``, ``torque_mean_Nm``, ...).
 
 Environment variables, read at each call:
 
@@ -14,8 +17,9 @@ Environment variables, read at each call:
     CPU work for measuring parallel speed-up.
 
 A candidate with ``operating.speed_rpm >= 99999`` raises :class:`ConvergenceError`, to test
-failures; one with ``operating.speed_rpm == 77777`` ends its process at once, like a crash
-of the mesher or an out-of-memory kill (the speed changes nothing else here).
+failures; one with ``operating.speed_rpm == 77777`` ends its process at once with
+``os._exit``, like a crash of the mesher or an out-of-memory kill (the speed changes nothing
+else here).
 """
 
 from __future__ import annotations
