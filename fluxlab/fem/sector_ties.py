@@ -18,11 +18,19 @@ from fluxlab.errors import MeshError
 from fluxlab.fem.tiemap import Tie, TieMap, build_tie_map, match_points, rotate
 from fluxlab.mesh.machine_mesh import MachineMesh
 
-__all__ = ["SectorDofs", "sector_dofs", "sector_tie_map"]
+__all__ = ["SectorDofs", "sector_dofs", "sector_tie_map", "sector_wraps"]
 
 #: Angular slack (rad) when deciding how many sectors a turned rotor dof has wrapped over;
 #: either choice at the boundary gives the same constraint through the edge tie.
 _WRAP_SLACK = 1e-9
+
+
+def sector_wraps(angle, sector_angle: float, edge_sign: int):
+    """Whole sectors an angle (rad from the sector start, scalar or array) has gone past,
+    and the factor on a potential carried back over them: edge_sign per sector wrapped
+    (the machine repeats every sector with that sign). Returns (wraps, sign)."""
+    wraps = np.floor(np.asarray(angle, dtype=float) / sector_angle + _WRAP_SLACK)
+    return wraps, np.where(np.mod(wraps, 2) == 1, float(edge_sign), 1.0)
 
 
 @dataclass(frozen=True, eq=False)
@@ -123,9 +131,7 @@ def _sliding_tie(sd: SectorDofs, step: int) -> Tie:
     xy = sd.doflocs[:, rot]
     turn = step * sd.step_angle
     theta = np.mod(np.arctan2(xy[1], xy[0]), 2.0 * np.pi) + turn
-    # Wrapping k sectors back multiplies the potential by edge_sign**k.
-    wraps = np.floor(theta / sd.sector_angle + _WRAP_SLACK)
-    sign = np.where(np.mod(wraps, 2) == 1, float(sd.edge_sign), 1.0)
+    wraps, sign = sector_wraps(theta, sd.sector_angle, sd.edge_sign)
     moved = rotate(xy, turn - wraps * sd.sector_angle)
     index = match_points(moved, sd.doflocs[:, sta], what)
     return Tie(rot, sta[index], sign, 0.0, what)

@@ -12,6 +12,7 @@ import math
 import numpy as np
 
 from fluxlab.errors import SpecError
+from fluxlab.fem.sector_ties import sector_wraps
 from fluxlab.fem.solver import FieldSolution
 from fluxlab.machine.model import MachineModel
 from fluxlab.mesh.machine_mesh import MachineMesh
@@ -81,9 +82,8 @@ def rotor_copies(machine: MachineMesh, rotor_angle: float) -> list[tuple[float, 
         rotor-frame potential of that copy; one or two entries.
     """
     s = machine.sector_angle
-    wraps = math.floor(rotor_angle / s + 1e-12)
+    wraps, sign = (float(x) for x in sector_wraps(rotor_angle, s, machine.edge_sign))
     turn = rotor_angle - wraps * s  # in [0, s)
-    sign = float(machine.edge_sign) ** (wraps % 2)
     copies = [(turn, sign)]
     if turn > 1e-12 * s:
         copies.append((turn - s, sign * machine.edge_sign))
