@@ -134,7 +134,8 @@ def test_drive_section_is_optional_and_unknown_keys_are_named():
         machine_from_dict(raw, GEOMETRIES)
     raw["drive"] = {"flux_map_max_current_peak_A": 10.0}  # cross-checked after the keys
     with pytest.raises(SpecError, match=r"drive.flux_map_max_current_peak_A = 10.0: .*"
-                                        "current limit 50.0 A"):
+                                        r"current limit operating.overload_current_peak_A "
+                                        r"= 50.0"):
         machine_from_dict(raw, GEOMETRIES)
 
 

@@ -133,3 +133,12 @@ def test_unknown_section_and_bad_file(tmp_path, demo_raw):
         load_machine(bad)
     with pytest.raises(SpecError, match="no such machine file"):
         load_machine(tmp_path / "missing.toml")
+
+
+def test_a_key_given_twice_is_named(tmp_path):
+    # TOML forbids a key twice in one table (TOML 1.0 specification, "Keys"); the parser
+    # reports only the line, the message also names the key.
+    path = tmp_path / "twice.toml"
+    path.write_text('[machine]\npoles = 4\n[stator]\nairgap_mm = 0.5\nairgap_mm = 0.6\n')
+    with pytest.raises(SpecError, match=r"key airgap_mm given twice"):
+        load_machine(path)

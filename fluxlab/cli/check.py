@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import math
 
+from fluxlab.geometry.rotor import opening_angles
+from fluxlab.machine.winding import machine_symmetry, winding_factor, winding_layout
 from fluxlab.spec.machine_file import load_machine
+from fluxlab.studies.averaging import averaging_positions, residual_orders, torque_period
 
 __all__ = ["add_args", "opening_lines", "run", "summary_lines"]
 
@@ -19,7 +22,6 @@ def opening_lines(spec) -> list[str]:
     Angles in deg from the pole's q-axis (inner edge, middle, outer edge; the middle is
     the file's ``end_angle_deg``) and the opening's length along the rib circle, mm.
     """
-    from fluxlab.geometry.rotor import opening_angles
 
     rotor, r_rib = spec.rotor, spec.rotor_radius - spec.rotor.tangential_rib
     lines = []
@@ -37,7 +39,6 @@ def opening_lines(spec) -> list[str]:
 
 def summary_lines(spec) -> list[str]:
     """A short human summary of a validated machine."""
-    from fluxlab.machine.winding import machine_symmetry, winding_factor, winding_layout
 
     st, w, r = spec.stator, spec.winding, spec.rotor
     sectors, sector_angle, sign = machine_symmetry(st.slots, spec.poles)
@@ -72,7 +73,6 @@ def run(args) -> int:
 
 def _averaging_line(spec) -> str:
     """The rotor positions of every position-averaged figure, and what they leave in."""
-    from fluxlab.studies.averaging import averaging_positions, residual_orders, torque_period
 
     slots, p = spec.stator.slots, spec.pole_pairs
     count = averaging_positions(spec)

@@ -9,6 +9,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
+from fluxlab.cli._output import add_overwrite, open_machine_output
 from fluxlab.envelope import (
     envelope_settings,
     envelope_study,
@@ -38,10 +39,12 @@ def add_args(parser) -> None:
                              "(default 48; 0 skips it)")
     parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
                         help="processes for the FEM solves (default: the core count)")
+    add_overwrite(parser)
 
 
 def run(args) -> int:
     spec = load_machine(args.machine)
+    output = open_machine_output(args.out, "envelope", spec, args.overwrite)  # before solves
     if args.positions is not None:  # the mesh is made for the count asked for
         raw = spec.raw
         raw.setdefault("drive", {})["flux_map_positions"] = args.positions
@@ -52,7 +55,9 @@ def run(args) -> int:
     progress = Progress()
     result = envelope_study(spec, settings, workers=args.workers, progress=progress)
     progress("writing tables and figures")
+    output.clear_stale()
     written = write_envelope(result, Path(args.out))
+    output.finish(written)
     progress.close()
     s, r = result.summary, result.summary["rated"]
     print(f"{spec.name}: base speed {s['base_speed_rpm']:.0f} rpm at "

@@ -6,7 +6,9 @@ import math
 import os
 from pathlib import Path
 
-from fluxlab.report.evaluation_files import write_evaluation
+from fluxlab.cli._output import add_overwrite, open_machine_output
+from fluxlab.envelope import envelope_study
+from fluxlab.report.evaluation_files import evaluation_warnings, write_evaluation
 from fluxlab.spec.machine_file import load_machine, replace_path
 from fluxlab.studies.evaluate import StudySettings, evaluate
 from fluxlab.sweep.progress import Progress
@@ -37,10 +39,12 @@ def add_args(parser) -> None:
                         "losses, rib stress) into DIR/envelope and review.pdf")
     parser.add_argument("--workers", type=int, default=os.cpu_count() or 1,
                         help="processes for independent studies (default: the core count)")
+    add_overwrite(parser)
 
 
 def run(args) -> int:
     spec = load_machine(args.machine)
+    output = open_machine_output(args.out, "evaluate", spec, args.overwrite)  # before solves
     if args.positions is not None:
         spec = replace_path(spec, "mesh.averaging_positions", args.positions)
     settings = StudySettings(studies=args.studies, angle_step_deg=args.angle_step_deg,
@@ -50,12 +54,12 @@ def run(args) -> int:
                           linear_solver=args.linear_solver)
     envelope = None
     if args.full:
-        from fluxlab.envelope import envelope_study
-
         envelope = envelope_study(spec, model=evaluation.model, workers=args.workers,
                                   progress=progress, operating=evaluation.operating_points())
     progress("writing tables, figures and review.pdf")
+    output.clear_stale()
     written = write_evaluation(evaluation, Path(args.out), Path(args.machine), envelope)
+    output.finish(written)
     progress.close()
     s = evaluation.summary
     print(f"{spec.name}: apparent Ld {s['Ld_apparent_H'] * 1e3:.2f} mH, Lq "
@@ -67,5 +71,7 @@ def run(args) -> int:
           f"γ {s['current_angle_deg']:.1f} deg")
     if not math.isfinite(s["saliency_apparent"]):
         print("note: Ld or Lq undefined at a current angle of 0 or 90 deg")
+    for warning in evaluation_warnings(evaluation):
+        print(f"WARNING: {warning}")
     print(f"wrote {len(written)} files to {args.out}")
     return 0

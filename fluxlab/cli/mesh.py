@@ -4,8 +4,10 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from fluxlab.cli._output import add_overwrite, open_machine_output
 from fluxlab.mesh.machine_mesh import build_mesh
 from fluxlab.report.figures import save_figure
+from fluxlab.report.plots.mesh import plot_mesh
 from fluxlab.report.point_files import write_mesh
 from fluxlab.spec.machine_file import load_machine
 
@@ -15,6 +17,7 @@ __all__ = ["add_args", "run"]
 def add_args(parser) -> None:
     parser.add_argument("machine", help="machine file (TOML)")
     parser.add_argument("--out", required=True, help="output folder")
+    add_overwrite(parser)
 
 
 def run(args) -> int:
@@ -23,12 +26,12 @@ def run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from fluxlab.report.plots.mesh import plot_mesh
 
     spec = load_machine(args.machine)
     out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
+    output = open_machine_output(out, "mesh", spec, args.overwrite)
     machine_mesh = build_mesh(spec)
+    output.clear_stale()
     written = write_mesh(machine_mesh, out)
     fig, ax = plt.subplots(figsize=(9, 9))
     plot_mesh(machine_mesh, ax=ax)
@@ -36,6 +39,7 @@ def run(args) -> int:
     ax.set_title(f"{spec.name}: modelled sector, {n_nodes} nodes, {n_el} triangles")
     fig.tight_layout()
     written += save_figure(fig, out, "mesh", ("png", "svg"))
+    output.finish(written)
     for path in written:
         print(f"wrote {path}")
     return 0

@@ -6,8 +6,10 @@ import json
 import math
 from pathlib import Path
 
+from fluxlab.cli._output import add_overwrite, open_machine_output
 from fluxlab.machine.model import build_model, rotor_step
 from fluxlab.report.figures import save_figure
+from fluxlab.report.plots.field import plot_field
 from fluxlab.report.point_files import point_record
 from fluxlab.spec.machine_file import load_machine
 from fluxlab.studies.operating_point import solve_point
@@ -27,6 +29,7 @@ def add_args(parser) -> None:
     parser.add_argument("--linear-solver", choices=("auto", "scipy", "pardiso"), default="auto",
                         help="sparse direct solver: auto (PARDISO when installed), scipy, "
                         "pardiso")
+    add_overwrite(parser)
 
 
 def run(args) -> int:
@@ -35,24 +38,27 @@ def run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from fluxlab.report.plots.field import plot_field
 
     spec = load_machine(args.machine)
+    out = Path(args.out)
+    output = open_machine_output(out, "solve", spec, args.overwrite)
     model = build_model(spec, linear_solver=args.linear_solver)
     step = rotor_step(model, math.radians(args.position_deg))
     point = solve_point(model, args.current_A, math.radians(args.current_angle_deg), step)
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
     record = point_record(model, point)
+    output.clear_stale()
     (out / "solve.json").write_text(json.dumps(record, indent=2))
     fig, ax = plt.subplots(figsize=(8, 7.5))
     plot_field(model, point.solution, ax=ax)
     ax.set_title(f"{spec.name}: {args.current_A:g} A peak, γ = {args.current_angle_deg:g} deg, "
                  f"position {math.degrees(point.position):.2f} deg", fontsize=10)
     fig.tight_layout()
-    save_figure(fig, out, "field", dpi=170)
+    figures = save_figure(fig, out, "field", dpi=170)
+    output.finish([out / "solve.json", *figures])
+    for warning in record["warnings"]:
+        print(f"WARNING: {warning}")
     print(f"torque {record['torque_maxwell_Nm']:.3f} N·m (Maxwell), "
           f"{record['torque_dq_Nm']:.3f} N·m (dq); psi_d {record['psi_d_Wb']:.4f} Wb, "
           f"psi_q {record['psi_q_Wb']:.4f} Wb; {record['newton_iterations']} Newton steps")
-    print(f"wrote {out / 'solve.json'}, {out / 'field.png'}, {out / 'field.pdf'}")
+    print("wrote " + ", ".join(str(p) for p in [out / "solve.json", *figures]))
     return 0

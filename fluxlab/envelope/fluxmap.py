@@ -17,6 +17,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from fluxlab.machine.dq import dq_torque
+from fluxlab.studies.averaging import averaging_steps
+from fluxlab.studies.operating_point import averaged_point
+from fluxlab.studies.pool import run_tasks
 
 __all__ = [
     "FluxMap",
@@ -98,8 +101,6 @@ def flux_map_from_arrays(i_d_A, i_q_A, psi_d_Wb, psi_q_Wb, pole_pairs: int,
 
 def _row_task(model, i_d: float, i_q_values: Sequence[float], positions: int | None):
     """One grid row (fixed id): the engine's mean psi_d, psi_q and air-gap torque."""
-    from fluxlab.studies.averaging import averaging_steps
-    from fluxlab.studies.operating_point import averaged_point
 
     steps = averaging_steps(model, positions)
     starts: dict[int, np.ndarray] = {}  # warm start per rotor step along the row
@@ -128,8 +129,6 @@ def flux_map(
     ``positions`` rotor positions of one torque period (default: the machine's averaging
     count). Rows run in ``workers`` processes.
     """
-    from fluxlab.studies.averaging import averaging_steps
-    from fluxlab.studies.pool import run_tasks
 
     i_d, i_q = np.asarray(i_d_A, float), np.asarray(i_q_A, float)
     flux_map_from_arrays(i_d, i_q, np.zeros((i_d.size, i_q.size)),

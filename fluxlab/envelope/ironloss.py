@@ -22,7 +22,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from fluxlab.errors import MaterialError
+from fluxlab.fem.solver import element_areas
 from fluxlab.studies.averaging import equally_spaced_steps
+from fluxlab.studies.curves import solve_point
+from fluxlab.studies.pool import run_tasks
 
 __all__ = [
     "RegionLoss",
@@ -176,8 +179,6 @@ def sweep_steps(model, samples: int) -> tuple[np.ndarray, bool]:
 
 
 def _sweep_task(model, current_peak, current_angle, steps):
-    from fluxlab.studies.curves import solve_point
-
     out, initial = [], None
     for step in steps:
         pt = solve_point(model, current_peak, current_angle, int(step), initial)
@@ -194,7 +195,6 @@ def flux_density_waveforms(model, current_peak: float, current_angle: float, sam
     The dq current is fixed; the rotor turns through one electrical period (see
     :func:`sweep_steps`); chunks of consecutive positions run in ``workers`` processes.
     """
-    from fluxlab.studies.pool import run_tasks
 
     steps, half = sweep_steps(model, samples)
     chunks = np.array_split(steps, max(1, min(workers, len(steps))))
@@ -228,7 +228,6 @@ def iron_loss_estimate(model, current_peak: float, current_angle: float, speed_r
                        samples: int = 48, workers: int = 1,
                        progress: Callable[[str], None] | None = None) -> IronLoss:
     """Iron loss of the whole machine, W, at one dq current and speed (see module text)."""
-    from fluxlab.fem.solver import element_areas
 
     regions = iron_regions(model)
     for name, (_, material) in regions.items():

@@ -5,6 +5,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from fluxlab.geometry.csg import to_shapely
+from fluxlab.geometry.stator import slot_shapes
+from fluxlab.machine.winding import series_turns_per_phase, winding_layout
 from fluxlab.spec.types import MachineSpec
 
 __all__ = [
@@ -78,9 +81,6 @@ def phase_resistance(
     coil. R = rho N_s l_turn / (a A_c) with N_s the series turns per path and a the parallel
     paths (a paths of N_s turns each, in parallel).
     """
-    from fluxlab.geometry.csg import to_shapely
-    from fluxlab.geometry.stator import slot_shapes
-    from fluxlab.machine.winding import series_turns_per_phase, winding_layout
 
     w = spec.winding
     temperature = spec.drive.copper_temperature_C if temperature_C is None else temperature_C

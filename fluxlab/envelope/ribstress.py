@@ -19,6 +19,8 @@ import math
 from dataclasses import dataclass
 
 from fluxlab.errors import SpecError
+from fluxlab.geometry.csg import annular_sector, cut, to_shapely
+from fluxlab.geometry.rotor import barrier_shape, post_shape
 from fluxlab.spec.types import MachineSpec
 
 __all__ = ["RIB_CAUTION", "BarrierStress", "RibStress", "outer_steel", "rib_stress"]
@@ -69,9 +71,6 @@ class RibStress:
 
 
 def _pole_shapes(spec: MachineSpec):
-    from fluxlab.geometry.csg import annular_sector, cut, to_shapely
-    from fluxlab.geometry.rotor import barrier_shape, post_shape
-
     rotor, radius = spec.rotor, spec.rotor_radius
     half = math.pi / spec.poles  # pole from d-axis to d-axis, q-axis on +x
     pole = to_shapely(annular_sector(rotor.shaft_diameter / 2, radius, -half, half))
@@ -91,7 +90,6 @@ def _rib_cutters(spec: MachineSpec, barrier):
     """Strips through the tangential ribs at both ends of a barrier, out past the surface."""
     from shapely.geometry import Point
 
-    from fluxlab.geometry.csg import annular_sector, to_shapely
 
     radius, rib = spec.rotor_radius, spec.rotor.tangential_rib
     near = barrier.difference(Point(0, 0).buffer(radius - rib - _EPS, quad_segs=720))

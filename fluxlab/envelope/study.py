@@ -17,9 +17,12 @@ from fluxlab.envelope.mtpa import MTPATrajectory, mtpa_trajectory, with_engine_p
 from fluxlab.envelope.resistance import PhaseResistance, phase_resistance
 from fluxlab.envelope.ribstress import RibStress, rib_stress
 from fluxlab.errors import MaterialError
+from fluxlab.machine.model import build_model
 from fluxlab.spec.types import MachineSpec
 from fluxlab.studies.averaging import averaging_positions
+from fluxlab.studies.curves import ANGLE_STEP_DEG, torque_vs_current_angle
 from fluxlab.studies.operating_point import AveragedPoint, OperatingPoints
+from fluxlab.studies.pool import run_tasks
 
 __all__ = [
     "EnvelopeSettings",
@@ -117,8 +120,6 @@ def operating_points(model, currents: list[float], workers: int = 1,
     The same studies as :func:`fluxlab.studies.evaluate.evaluate` (current-angle grid and bounded
     MTPA search, :func:`fluxlab.studies.curves.torque_vs_current_angle`), run in ``workers``.
     """
-    from fluxlab.studies.curves import ANGLE_STEP_DEG, torque_vs_current_angle
-    from fluxlab.studies.pool import run_tasks
 
     op = model.spec.operating
     rated_angle = [] if op.current_angle is None else [math.degrees(op.current_angle)]
@@ -158,7 +159,6 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
     loss is computed at the rated point at the rated speed; it is skipped, with a warning,
     when a steel has no loss coefficients.
     """
-    from fluxlab.machine.model import build_model
 
     settings = settings or envelope_settings(spec)
     say = progress or (lambda message: None)

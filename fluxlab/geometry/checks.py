@@ -12,6 +12,7 @@ from fluxlab.errors import GeometryError
 from fluxlab.geometry.csg import disk, to_shapely
 from fluxlab.geometry.rotor import barrier_shape
 from fluxlab.geometry.stator import slot_outline
+from fluxlab.machine.winding import machine_symmetry
 from fluxlab.spec.types import MachineSpec
 
 __all__ = ["geometry_problems"]
@@ -24,39 +25,64 @@ def _mm(x: float) -> str:
     return f"{x * 1e3:.4g}"
 
 
+def _width_key(st) -> str:
+    """The key that sets the slot body's width, with its value."""
+    if st.slot_width is not None:
+        return f"stator.slot_width_mm = {_mm(st.slot_width)}"
+    return f"stator.tooth_width_mm = {_mm(st.tooth_width or 0)}"
+
+
 def _stator_problems(spec: MachineSpec) -> list[str]:
     st = spec.stator
     s = slot_outline(st)
     pitch = 2 * math.pi / st.slots
     r_bore = st.bore_diameter / 2
     problems = []
+    slots = f"stator.slots = {st.slots}"
+    bore = f"stator.bore_diameter_mm = {_mm(st.bore_diameter)}"
+    tip = f"stator.tip_height_mm = {_mm(st.tip_height)}"
+    depth = f"stator.slot_depth_mm = {_mm(st.slot_depth)}"
     if s.half_width_top <= 0 or s.half_width_bottom <= 0:
+        # only parallel teeth can do this: the slot side is tooth_width/2 off the tooth's
+        # centre line, so the tooth must be narrower than the slot pitch's chord there
+        at_top = s.half_width_top <= 0
+        x = s.x_top if at_top else s.x_side_end
+        where = (f"the body top, radius {bore} / 2 + {tip}" if at_top else
+                 f"the end of the straight sides, radius {_mm(x)} mm from {bore}, {depth}")
         problems.append(
-            f"stator.tooth_width_mm = {_mm(st.tooth_width or 0)}: leaves no slot body "
-            f"(slot half width {_mm(s.half_width_top)} mm at its top)"
+            f"{_width_key(st)}: leaves no slot body; the tooth must be narrower than the slot "
+            f"pitch chord 2 r sin(180 deg / {slots}) = {_mm(2 * x * math.sin(pitch / 2))} mm "
+            f"at {where}"
         )
         return problems
     if s.half_width_top < st.slot_opening / 2 - _TOL:
         problems.append(
             f"stator.slot_opening_mm = {_mm(st.slot_opening)}: wider than the slot body at "
-            f"its top ({_mm(2 * s.half_width_top)} mm)"
+            f"its top ({_mm(2 * s.half_width_top)} mm, from {_width_key(st)}"
+            + ("" if st.slot_width is not None else f", {bore}, {tip}, {slots}") + ")"
         )
-    tooth_at_tip = 2 * s.x_top * math.sin(pitch / 2) - 2 * s.half_width_top
-    tooth_at_bore = 2 * r_bore * math.sin(pitch / 2) - st.slot_opening
-    tooth_at_bottom = 2 * s.x_side_end * math.sin(pitch / 2) - 2 * s.half_width_bottom
-    worst = min(tooth_at_tip, tooth_at_bore, tooth_at_bottom)
+    chord = 2 * math.sin(pitch / 2)
+    places = {  # tooth width at each place, and the keys that set it
+        "at the tooth tips": (s.x_top * chord - 2 * s.half_width_top,
+                              f"{_width_key(st)}, {bore}, {tip}, {slots}"),
+        "at the bore": (r_bore * chord - st.slot_opening,
+                        f"stator.slot_opening_mm = {_mm(st.slot_opening)}, {bore}, {slots}"),
+        "at the slot bottom": (s.x_side_end * chord - 2 * s.half_width_bottom,
+                               f"{_width_key(st)}, {depth}, {bore}, {slots}"),
+    }
+    where = min(places, key=lambda k: places[k][0])
+    worst, keys = places[where]
     if worst < spec.rotor.min_steel:
-        key = "slot_width_mm" if st.slot_width is not None else "slot_opening_mm"
-        value = st.slot_width if st.slot_width is not None else st.slot_opening
         problems.append(
-            f"stator.{key} = {_mm(value)}: the teeth get {_mm(worst)} mm thin, less than "
+            f"{keys}: the teeth get {_mm(worst)} mm thin {where}, less than "
             f"rotor.min_steel_mm = {_mm(spec.rotor.min_steel)} (slot pitch at the bore "
             f"{_mm(r_bore * pitch)} mm)"
         )
     if st.slot_bottom == "round" and s.x_side_end < s.x_top:
         problems.append(
-            f"stator.slot_depth_mm = {_mm(st.slot_depth)}: too shallow for a round bottom of "
-            f"radius {_mm(s.round_radius)} mm after the tip height {_mm(st.tip_height)} mm"
+            f"{depth}: too shallow for a round bottom of radius {_mm(s.round_radius)} mm "
+            f"(from {_width_key(st)}" + ("" if st.slot_width is not None else f", {slots}")
+            + f") after {tip}"
         )
     # gmsh gives a small arc about 12 edges per circle but grades nothing around it:
     # fillets below about 1/1000 of the element size gave degenerate triangles
@@ -73,7 +99,8 @@ def _stator_problems(spec: MachineSpec) -> list[str]:
     ) / 1.01:
         problems.append(
             f"stator.bottom_fillet_mm = {_mm(st.bottom_fillet)}: must be less than half the "
-            f"slot bottom width ({_mm(s.half_width_bottom)} mm) and the body depth"
+            f"slot bottom width ({_mm(s.half_width_bottom)} mm, from {_width_key(st)}) and "
+            f"the body depth ({_mm(s.x_bottom - s.x_top)} mm = {depth} - {tip})"
         )
     return problems
 
@@ -93,7 +120,8 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
         if b.depth - b.width / 2 < rotor.tangential_rib - _TOL:
             problems.append(
                 f"{key}.depth_mm = {_mm(b.depth)}: the barrier crosses the air gap on the "
-                f"q-axis; depth must be at least width/2 + tangential rib = "
+                f"q-axis; must be at least {key}.width_mm / 2 + rotor.tangential_rib_mm = "
+                f"{_mm(b.width)} / 2 + {_mm(rotor.tangential_rib)} = "
                 f"{_mm(b.width / 2 + rotor.tangential_rib)} mm"
             )
             shapes.append(None)
@@ -114,15 +142,19 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
         clearance = shape.distance(shaft)
         if clearance < rotor.min_steel - _TOL:
             problems.append(
-                f"{key}.depth_mm = {_mm(b.depth)}: leaves {_mm(clearance)} mm of steel to the "
-                f"shaft, less than rotor.min_steel_mm = {_mm(rotor.min_steel)}"
+                f"{key}.depth_mm = {_mm(b.depth)} with {key}.width_mm = {_mm(b.width)}: leaves "
+                f"{_mm(clearance)} mm of steel to the shaft (rotor.shaft_diameter_mm = "
+                f"{_mm(rotor.shaft_diameter)}), less than rotor.min_steel_mm = "
+                f"{_mm(rotor.min_steel)}"
             )
         to_d = shape.distance(d_axis)
         if 2 * to_d < rotor.min_steel - _TOL or shape.intersects(d_axis):
             problems.append(
-                f"{key}.end_angle_deg = {math.degrees(b.end_angle):.4g}: the barrier comes "
-                f"{_mm(to_d)} mm from the d-axis; the steel between neighbouring poles "
-                f"({_mm(2 * to_d)} mm) is less than rotor.min_steel_mm = {_mm(rotor.min_steel)}"
+                f"{key}.end_angle_deg = {math.degrees(b.end_angle):.4g} with {key}.width_mm = "
+                f"{_mm(b.width)}: the barrier comes {_mm(to_d)} mm from the d-axis (at "
+                f"{180 / spec.poles:.4g} deg from the q-axis, machine.poles = {spec.poles}); "
+                f"the steel between neighbouring poles ({_mm(2 * to_d)} mm) is less than "
+                f"rotor.min_steel_mm = {_mm(rotor.min_steel)}"
             )
     for i in range(len(shapes) - 1):
         a, b = shapes[i], shapes[i + 1]
@@ -138,16 +170,20 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
             continue
         gap = a.distance(b)
         if gap < rotor.min_steel - _TOL or a.intersects(b):
+            sizes = ", ".join(
+                f"rotor.barriers[{j}] depth_mm = {_mm(rotor.barriers[j].depth)}, width_mm = "
+                f"{_mm(rotor.barriers[j].width)}, end_angle_deg = "
+                f"{math.degrees(rotor.barriers[j].end_angle):.4g}" for j in (i, i + 1))
             problems.append(
                 f"{key}: {_mm(gap)} mm of steel to rotor.barriers[{i}], less than "
-                f"rotor.min_steel_mm = {_mm(rotor.min_steel)} (barriers overlap or nearly)"
+                f"rotor.min_steel_mm = {_mm(rotor.min_steel)} (barriers overlap or nearly; "
+                f"{sizes})"
             )
     return problems
 
 
 def geometry_problems(spec: MachineSpec) -> list[str]:
     """Every geometric problem of a machine, as messages naming key, value and limit."""
-    from fluxlab.machine.winding import machine_symmetry
 
     problems = _stator_problems(spec) + _barrier_problems(spec)
     sectors, _, _ = machine_symmetry(spec.stator.slots, spec.poles)

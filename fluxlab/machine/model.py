@@ -12,9 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fluxlab.fem.solver import FieldProblem, element_areas, make_problem
+from fluxlab.fem.solver import FieldProblem, element_areas, linear_backend, make_problem
 from fluxlab.geometry import slot_region_name, slots_in_sector
 from fluxlab.machine.winding import WindingLayout, phase_axis_angle, winding_layout
+from fluxlab.materials.material import AIR
 from fluxlab.mesh.machine_mesh import MachineMesh, build_mesh
 from fluxlab.spec.types import MachineSpec
 
@@ -92,8 +93,6 @@ class MachineModel:
 
 
 def _element_materials(spec: MachineSpec, machine: MachineMesh):
-    from fluxlab.materials.material import AIR
-
     materials = [AIR, spec.materials["stator"], spec.materials["rotor"], spec.materials["shaft"]]
     index = {"stator": 1, "rotor": 2, "shaft": 3}
     element_material = np.zeros(machine.mesh.t.shape[1], dtype=np.int64)  # air by default
@@ -137,7 +136,6 @@ def build_model(spec: MachineSpec, mesh: MachineMesh | None = None,
     if abs(axis_error) > 1e-9:
         log.warning("phase-a axis %.4f deg is %.4f deg off the nearest rotor step",
                     math.degrees(axis), math.degrees(axis_error))
-    from fluxlab.fem.solver import linear_backend
 
     linear_backend(problem, linear_solver)  # fail early on a bad name
     return MachineModel(spec, machine, problem, layout, weight, axis_step, axis_error,

@@ -14,6 +14,17 @@ import numpy as np
 from skfem import MeshTri
 
 from fluxlab.errors import MeshError
+from fluxlab.geometry import (
+    poles_in_sector,
+    rotor_regions,
+    sliding_radius,
+    slots_in_sector,
+    stator_regions,
+)
+from fluxlab.geometry.rotor import barrier_placement
+from fluxlab.machine.winding import machine_symmetry
+from fluxlab.mesh.gmsh_part import PartSizes, mesh_part
+from fluxlab.spec.schema import MAX_ELEMENTS_DEFAULT
 from fluxlab.studies.averaging import division_unit, position_counts
 
 __all__ = [
@@ -24,6 +35,8 @@ __all__ = [
     "airgap_element_size",
     "rib_element_size",
     "estimated_elements",
+    "element_limit",
+    "mesh_size_problems",
     "MAX_ELEMENTS",
 ]
 
@@ -99,7 +112,6 @@ def sliding_divisions(spec, sector_angle: float) -> int:
     segments, and of what every position count of the studies needs to be equally spaced
     (:func:`fluxlab.studies.averaging.position_counts`).
     """
-    from fluxlab.geometry import sliding_radius, slots_in_sector
 
     sectors = round(2 * math.pi / sector_angle)
     unit = math.lcm(spec.mesh.steps_per_slot * slots_in_sector(spec, sector_angle),
@@ -121,10 +133,14 @@ def rib_element_size(spec) -> float:
     return min([spec.rotor.tangential_rib, *posts]) / 3
 
 
-#: Triangles a sector may get before meshing is refused with a MeshError: 100 times the
-#: demo machines' meshes, and at gmsh's rate (about 1 s per 100k triangles, one thread)
-#: still well under a minute; beyond it a mistyped size means a mesh that never ends.
-MAX_ELEMENTS = 2_000_000
+#: Estimated triangles a sector may get unless its file sets ``mesh.max_elements``; the
+#: measured meshing rates behind it are stated at its definition in fluxlab.spec.schema.
+MAX_ELEMENTS = MAX_ELEMENTS_DEFAULT
+
+
+def element_limit(spec) -> int:
+    """The machine's ``mesh.max_elements`` (default :data:`MAX_ELEMENTS`)."""
+    return int(spec.mesh.max_elements)
 
 
 def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
@@ -140,7 +156,6 @@ def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
     grows with slope about 1/8: near the string like a line, per L (2 * 8 + 4) / h_r;
     farther out like a point, int per 2 pi rho / (rho/8)^2 drho from L to 8 ``mesh.size``.
     """
-    from fluxlab.geometry import poles_in_sector
 
     per = 4 / math.sqrt(3)
     size = spec.mesh.size
@@ -158,30 +173,52 @@ def estimated_elements(spec, sector_angle: float) -> dict[str, float]:
     return {"bulk": bulk, "gap": gap, "ribs": ribs}
 
 
-def _check_size(spec, sector_angle: float) -> None:
+def mesh_size_problems(spec, limit: int | None = None) -> list[str]:
+    """The element estimate against ``limit`` (default: :func:`element_limit`): one message
+    naming every key that enters the estimate, with its value, or none."""
+
+    limit = element_limit(spec) if limit is None else limit
+    sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
     terms = estimated_elements(spec, sector_angle)
     total = sum(terms.values())
-    if total <= MAX_ELEMENTS:
-        return
-    keys = {
-        "bulk": "mesh.size_mm for stator.outer_diameter_mm",
-        "gap": "stator.airgap_mm with mesh.airgap_layers",
-        "ribs": "rotor.tangential_rib_mm, rotor.barriers[].post_mm or mesh.rib_size_mm",
+    if total <= limit:
+        return []
+
+    def mm(x: float | None) -> str:
+        return "unset" if x is None else f"{x * 1e3:.4g}"
+
+    st, rotor, mesh = spec.stator, spec.rotor, spec.mesh
+    posts = ", ".join(f"[{i}] {mm(b.post_width)}" for i, b in enumerate(rotor.barriers))
+    widths = ", ".join(f"[{i}] {mm(b.width)}" for i, b in enumerate(rotor.barriers))
+    why = {
+        "bulk": f"bulk {terms['bulk']:.3g} from mesh.size_mm = {mm(mesh.size)} over "
+                f"stator.outer_diameter_mm = {mm(st.outer_diameter)}",
+        "gap": f"air gap {terms['gap']:.3g} from stator.airgap_mm = {mm(st.airgap)} with "
+               f"mesh.airgap_layers = {mesh.airgap_layers} along stator.bore_diameter_mm = "
+               f"{mm(st.bore_diameter)}",
+        "ribs": f"ribs {terms['ribs']:.3g} from element size {mm(rib_element_size(spec))} mm "
+                f"(mesh.rib_size_mm = {mm(mesh.rib_size)}, else a third of the thinnest of "
+                f"rotor.tangential_rib_mm = {mm(rotor.tangential_rib)} and "
+                f"rotor.barriers[].post_mm = {posts or 'none'}) along "
+                f"rotor.barriers[].width_mm = {widths or 'none'}",
     }
-    worst = max(terms, key=terms.get)
-    raise MeshError(
-        f"the sector would get about {total:.3g} triangles, more than {MAX_ELEMENTS}; "
-        f"most of them from {keys[worst]} (mesh.size_mm = {spec.mesh.size * 1e3:.4g}, "
-        f"stator.outer_diameter_mm = {spec.stator.outer_diameter * 1e3:.4g}, "
-        f"stator.airgap_mm = {spec.stator.airgap * 1e3:.4g}, rib element size "
-        f"{rib_element_size(spec) * 1e3:.4g} mm)"
-    )
+    parts = "; ".join(why[k] for k in sorted(terms, key=terms.get, reverse=True))
+    return [
+        f"mesh.max_elements = {limit}: the sector's mesh would get about {total:.3g} "
+        f"triangles, more than the limit; {parts}; the sector is 1/{sectors} of the machine "
+        f"(machine.poles = {spec.poles}, stator.slots = {st.slots}). Coarsen the sizes or "
+        "raise mesh.max_elements"
+    ]
+
+
+def _check_size(spec) -> None:
+    problems = mesh_size_problems(spec)
+    if problems:
+        raise MeshError(problems[0])
 
 
 def _rib_points(spec, sector_angle: float) -> np.ndarray:
     """Sample points along every tangential rib and post of the sector, (n, 2) m."""
-    from fluxlab.geometry import poles_in_sector
-    from fluxlab.geometry.rotor import barrier_placement
 
     rotor, r_rotor = spec.rotor, spec.rotor_radius
     pts = []
@@ -242,12 +279,9 @@ def build_mesh(spec) -> MachineMesh:
     (:func:`fluxlab.machine.winding.machine_symmetry`): one pole pitch with anti-periodic edges for
     an integral-slot winding.
     """
-    from fluxlab.geometry import rotor_regions, sliding_radius, stator_regions
-    from fluxlab.machine.winding import machine_symmetry
-    from fluxlab.mesh.gmsh_part import PartSizes, mesh_part
 
     sectors, sector_angle, edge_sign = machine_symmetry(spec.stator.slots, spec.poles)
-    _check_size(spec, sector_angle)  # before gmsh: a runaway mesh cannot be interrupted
+    _check_size(spec)  # before gmsh: a runaway mesh cannot be interrupted
     n_div = sliding_divisions(spec, sector_angle)
     r_slide = sliding_radius(spec)
     fine = airgap_element_size(spec)

@@ -19,6 +19,8 @@ import numpy as np
 
 from fluxlab.errors import FluxlabError
 from fluxlab.report.figures import caution_line
+from fluxlab.report.plots.field import plot_outline
+from fluxlab.spec.machine_file import load_machine
 
 __all__ = ["PER_PAGE", "FIGURE_ROWS", "CompareEntry", "load_evaluate_folder",
            "compare_figure", "write_compare_pdf"]
@@ -81,7 +83,6 @@ def load_evaluate_folder(folder: str | Path, label: str | None = None) -> Compar
     FluxlabError
         When the folder has no readable ``summary.json`` or a curve file lacks its columns.
     """
-    from fluxlab.spec.machine_file import load_machine
 
     folder = Path(folder)
     try:
@@ -107,11 +108,7 @@ def load_evaluate_folder(folder: str | Path, label: str | None = None) -> Compar
 
 def _outline(ax, entry: CompareEntry) -> None:
     ax.set_title(entry.label, fontsize=9)
-    try:
-        from fluxlab.report.plots.field import plot_outline
-    except ImportError:  # the outline drawing is not part of this installation yet
-        plot_outline = None
-    if plot_outline is None or entry.spec is None:
+    if entry.spec is None:
         ax.text(0.5, 0.5, "outline not available", ha="center", va="center", fontsize=8,
                 color="0.5", transform=ax.transAxes)
         ax.set_axis_off()

@@ -10,6 +10,7 @@ import numpy as np
 
 from fluxlab.envelope import incremental_inductances, inverse_tables
 from fluxlab.report.figures import save_figure
+from fluxlab.report.plots import envelope as pe
 from fluxlab.report.tables import write_csv
 
 __all__ = ["envelope_tables", "write_envelope"]
@@ -69,7 +70,6 @@ def write_envelope(result, out: Path) -> list[Path]:
     import matplotlib
 
     matplotlib.use("Agg")
-    from fluxlab.report.plots import envelope as pe
 
     out.mkdir(parents=True, exist_ok=True)
     written = [write_csv(out / f"{stem}.csv", cols)

@@ -6,17 +6,36 @@ import json
 import shutil
 from pathlib import Path
 
-from fluxlab.report.figures import save_figure
+from fluxlab.report.envelope_files import write_envelope
+from fluxlab.report.figures import CAUTION, save_figure
+from fluxlab.report.forked import run_jobs
+from fluxlab.report.plots.curves import (
+    plot_inductances,
+    plot_torque_vs_angle,
+    plot_torque_vs_position,
+)
+from fluxlab.report.plots.field import plot_field
+from fluxlab.report.plots.winding import plot_winding_layout
+from fluxlab.report.sheet import write_review_sheet
+from fluxlab.report.tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
+from fluxlab.studies.plausibility import point_warnings
 
-__all__ = ["write_evaluation"]
+__all__ = ["write_evaluation", "evaluation_warnings"]
+
+
+def evaluation_warnings(evaluation) -> list[str]:
+    """Implausible figures of the rated point (see :mod:`fluxlab.studies.plausibility`)."""
+
+    point = evaluation.rated_point
+    return point_warnings(evaluation.model, point.current_peak_A,
+                          float(point.solution.b_norm.max()))
 
 
 def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
     """summary.json, a copy of the machine file and the CSV tables."""
-    from fluxlab.report.figures import CAUTION
-    from fluxlab.report.tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
 
-    summary = {**evaluation.summary, "caution": CAUTION}
+    summary = {**evaluation.summary, "caution": CAUTION,
+               "warnings": evaluation_warnings(evaluation)}
     (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
     written = [out / "summary.json"]
     if machine_file is not None:
@@ -32,11 +51,6 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
     """The torque and inductance curves."""
     import matplotlib.pyplot as plt
 
-    from fluxlab.report.plots.curves import (
-        plot_inductances,
-        plot_torque_vs_angle,
-        plot_torque_vs_position,
-    )
 
     plots = [
         ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
@@ -57,8 +71,6 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
     """The field at the rated point and the winding layout."""
     import matplotlib.pyplot as plt
 
-    from fluxlab.report.plots.field import plot_field
-    from fluxlab.report.plots.winding import plot_winding_layout
 
     fig, ax = plt.subplots(figsize=(8, 7.5))
     plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)
@@ -74,8 +86,6 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
 
 
 def _write_sheet(evaluation, out: Path, envelope) -> list[Path]:
-    from fluxlab.report.sheet import write_review_sheet
-
     return [write_review_sheet(evaluation, out / "review.pdf",
                                evaluation.rated_point.solution, envelope)]
 
@@ -91,14 +101,11 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
     import matplotlib
 
     matplotlib.use("Agg")
-    from fluxlab.report.forked import run_jobs
 
     out.mkdir(parents=True, exist_ok=True)
     written = _write_data(evaluation, out, machine_file)
     jobs = [lambda: _write_sheet(evaluation, out, envelope) + _write_curves(evaluation, out),
             lambda: _write_field_and_winding(evaluation, out)]
     if envelope is not None:
-        from fluxlab.report.envelope_files import write_envelope
-
         jobs.append(lambda: write_envelope(envelope, out / "envelope"))
     return written + run_jobs(jobs, parallel)

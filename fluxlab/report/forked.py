@@ -6,7 +6,8 @@ two cores. Only the job's return value (a list of paths) travels back through a 
 Where ``fork`` is not available (Windows) the jobs run here, one after the other.
 The child runs no sparse solver: fork is unsafe only for threaded numerical libraries
 (a forked CHOLMOD deadlocked and a threaded MKL livelocked when this was measured on two
-cores; DEVELOPERS.md, Speed), which drawing does not use.
+cores; DEVELOPERS.md, Speed), which drawing does not use. The child ends with this process,
+even when it is killed (:mod:`fluxlab.studies.parent_watch`).
 """
 
 from __future__ import annotations
@@ -16,12 +17,15 @@ import traceback
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
+from fluxlab.studies.parent_watch import end_with_parent, parent_identity
+
 __all__ = ["run_jobs"]
 
 Job = Callable[[], list[Path]]
 
 
-def _child(job: Job, conn) -> None:
+def _child(job: Job, conn, parent: tuple[int, bool]) -> None:
+    end_with_parent(*parent)
     try:
         conn.send(("ok", job()))
     except BaseException as err:  # noqa: BLE001 - reported to the parent, which raises
@@ -45,7 +49,8 @@ def run_jobs(jobs: Sequence[Job], parallel: bool = True) -> list[Path]:
         return [path for job in jobs for path in job()]
     context = multiprocessing.get_context("fork")
     receive, send = context.Pipe(duplex=False)
-    child = context.Process(target=_child, args=(jobs[0], send), daemon=True)
+    child = context.Process(target=_child, args=(jobs[0], send, parent_identity()),
+                            daemon=True)
     child.start()
     send.close()
     here: list[Path] = []

@@ -8,6 +8,7 @@ import math
 from pathlib import Path
 
 from fluxlab.machine.dq import power_factor
+from fluxlab.studies.plausibility import point_warnings
 
 __all__ = ["write_mesh", "point_record"]
 
@@ -35,8 +36,13 @@ def write_mesh(machine_mesh, out: Path) -> list[Path]:
 
 
 def point_record(model, point) -> dict:
-    """JSON-able record of one solved point (SI units, names with units)."""
+    """JSON-able record of one solved point (SI units, names with units).
+
+    ``warnings``: implausible figures (see :mod:`fluxlab.studies.plausibility`), may be empty.
+    """
+
     sol = point.solution
+    b_peak = float(sol.b_norm.max())
     return {
         "current_peak_A": point.current_peak_A,
         "current_angle_deg": math.degrees(point.current_angle),
@@ -51,11 +57,12 @@ def point_record(model, point) -> dict:
         "power_factor": power_factor(point.psi_d, point.psi_q, point.i_d, point.i_q),
         "energy_J": model.scale * sol.energy_per_m,
         "coenergy_J": model.scale * sol.coenergy_per_m,
-        "b_local_peak_T": float(sol.b_norm.max()),
+        "b_local_peak_T": b_peak,
         "newton_iterations": sol.iterations,
         "newton_rtol": model.newton_rtol,
         "newton_relative_residuals": list(sol.history),
         "nodes": int(model.mesh.mesh.p.shape[1]),
         "element_order": model.spec.mesh.element_order,
         "currents": "peak phase amperes; angle from the d-axis",
+        "warnings": point_warnings(model, point.current_peak_A, b_peak),
     }

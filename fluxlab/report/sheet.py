@@ -7,6 +7,13 @@ import math
 from pathlib import Path
 
 from fluxlab.report.figures import caution_line
+from fluxlab.report.plots.curves import (
+    plot_inductances,
+    plot_torque_vs_angle,
+    plot_torque_vs_position,
+)
+from fluxlab.report.plots.envelope import add_envelope_page
+from fluxlab.report.plots.field import plot_field, plot_outline
 from fluxlab.studies.evaluate import Evaluation
 
 __all__ = ["key_figures", "write_review_sheet"]
@@ -88,12 +95,6 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     import matplotlib.pyplot as plt
     from matplotlib.backends.backend_pdf import PdfPages
 
-    from fluxlab.report.plots.curves import (
-        plot_inductances,
-        plot_torque_vs_angle,
-        plot_torque_vs_position,
-    )
-    from fluxlab.report.plots.field import plot_outline
 
     spec, summary = evaluation.spec, evaluation.summary
     fig = plt.figure(figsize=(11.69, 8.27))
@@ -124,8 +125,6 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         if data is not None:
             plot(data, ax=fig.add_subplot(cell)).set_title(title)
     if field_solution is not None:
-        from fluxlab.report.plots.field import plot_field
-
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
             "Field at the rated point, position 0")
     for a in fig.axes:
@@ -138,7 +137,5 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         pdf.savefig(fig)
         plt.close(fig)
         if envelope is not None:
-            from fluxlab.report.plots.envelope import add_envelope_page
-
             add_envelope_page(pdf, envelope)
     return path

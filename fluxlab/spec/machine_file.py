@@ -13,7 +13,12 @@ import json
 from pathlib import Path
 from typing import Any
 
-from fluxlab.errors import SpecError
+from fluxlab.errors import MaterialError, SpecError, WindingError
+from fluxlab.geometry import geometry_problems
+from fluxlab.machine.winding import check_parallel_paths, winding_layout
+from fluxlab.materials.files import resolve_material
+from fluxlab.mesh.machine_mesh import mesh_size_problems
+from fluxlab.spec.keypath import set_path
 from fluxlab.spec.schema import (
     BARRIER_KEYS,
     DRIVE_KEYS,
@@ -68,9 +73,6 @@ def _read_barriers(data: Any, problems: list[str]) -> tuple[BarrierSpec, ...]:
 
 
 def _read_materials(data: Any, base_dir: Path, problems: list[str]) -> dict:
-    from fluxlab.errors import MaterialError
-    from fluxlab.materials.files import resolve_material
-
     if not isinstance(data, dict):
         problems.append(f"materials: must be a table, got {data!r}")
         return {}
@@ -92,8 +94,86 @@ def _read_materials(data: Any, base_dir: Path, problems: list[str]) -> dict:
     return out
 
 
-def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
-    """Checks that relate several keys; geometry overlaps are checked in fluxlab.geometry."""
+#: Smallest air gap, mm: below the running clearance any rotor keeps (small motors use
+#: 0.2 mm and more); common practice, no source.
+AIRGAP_MIN_MM = 0.05
+#: Largest air gap per bore diameter: radial-flux machines have gaps of a few per cent of
+#: the bore at most; 10 % leaves a wide margin (common practice, no source).
+AIRGAP_MAX_PER_BORE = 0.1
+#: Longest stack per outer diameter: long two-pole machines reach about 5 (common
+#: practice, no source).
+STACK_MAX_PER_OUTER = 10.0
+#: Longest coil end per outer diameter: a full-pitch coil of a two-pole winding spans half
+#: the bore circumference, pi/2 bore diameters (geometry); 2 leaves a margin.
+END_WINDING_MAX_PER_OUTER = 2.0
+
+_STATOR_LENGTHS = ("bore_diameter", "airgap", "slot_opening", "tip_height", "tooth_width",
+                   "slot_width", "slot_depth", "bottom_fillet")
+_ROTOR_LENGTHS = ("shaft_diameter", "tangential_rib", "min_rib", "min_steel")
+_BARRIER_LENGTHS = (("depth", "depth_mm"), ("width", "width_mm"), ("post_width", "post_mm"))
+
+
+def _plausibility(spec: MachineSpec) -> list[str]:
+    """Every length against the machine's size, before any check that computes with them.
+
+    Each length of the cross-section lies inside the stator's outer circle, each rotor
+    length inside the bore (geometry); the air gap and the axial lengths are bounded by the
+    constants above. A failed bound names every key that enters it.
+    """
+    st, rotor = spec.stator, spec.rotor
+    outer, bore = _mm(st.outer_diameter), _mm(st.bore_diameter)
+    problems = []
+    for name in _STATOR_LENGTHS:
+        value = getattr(st, name)
+        if value is not None and value >= st.outer_diameter:
+            problems.append(
+                f"stator.{name}_mm = {_mm(value)}: must be less than "
+                f"stator.outer_diameter_mm = {outer} (the cross-section lies inside the "
+                "stator's outer circle)"
+            )
+    if problems:  # the bore is the reference of the checks below
+        return problems
+    rotor_lengths = [(f"rotor.{n}_mm", getattr(rotor, n)) for n in _ROTOR_LENGTHS]
+    rotor_lengths += [(f"rotor.barriers[{i}].{key}", getattr(b, attr))
+                      for i, b in enumerate(rotor.barriers) for attr, key in _BARRIER_LENGTHS]
+    for path, value in rotor_lengths:
+        if value >= st.bore_diameter:
+            problems.append(
+                f"{path} = {_mm(value)}: must be less than stator.bore_diameter_mm = {bore} "
+                "(the rotor lies inside the bore)"
+            )
+    gap = _mm(st.airgap)
+    if gap < AIRGAP_MIN_MM:
+        problems.append(f"stator.airgap_mm = {gap}: must be at least {AIRGAP_MIN_MM} mm "
+                        "(smallest running clearance, common practice)")
+    if st.airgap > AIRGAP_MAX_PER_BORE * st.bore_diameter:
+        problems.append(
+            f"stator.airgap_mm = {gap}: must be at most {AIRGAP_MAX_PER_BORE:g} x "
+            f"stator.bore_diameter_mm = {bore}, that is "
+            f"{_mm(AIRGAP_MAX_PER_BORE * st.bore_diameter)} mm (common practice)"
+        )
+    if spec.stack_length > STACK_MAX_PER_OUTER * st.outer_diameter:
+        problems.append(
+            f"machine.stack_length_mm = {_mm(spec.stack_length)}: must be at most "
+            f"{STACK_MAX_PER_OUTER:g} x stator.outer_diameter_mm = {outer}, that is "
+            f"{_mm(STACK_MAX_PER_OUTER * st.outer_diameter)} mm (common practice)"
+        )
+    end = spec.drive.end_winding_length
+    if end is not None and end > END_WINDING_MAX_PER_OUTER * st.outer_diameter:
+        problems.append(
+            f"drive.end_winding_length_mm = {_mm(end)}: must be at most "
+            f"{END_WINDING_MAX_PER_OUTER:g} x stator.outer_diameter_mm = {outer}, that is "
+            f"{_mm(END_WINDING_MAX_PER_OUTER * st.outer_diameter)} mm"
+        )
+    return problems
+
+
+def _cross_checks(spec: MachineSpec, problems: list[str], lengths: bool = True) -> None:
+    """Checks that relate several keys; geometry overlaps are checked in fluxlab.geometry.
+
+    ``lengths`` False leaves out the checks between lengths (after a failed plausibility
+    check, where they would blame a key that is not the wrong one).
+    """
     st = spec.stator
     if (st.tooth_width is None) == (st.slot_width is None):
         problems.append(
@@ -102,17 +182,23 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
         )
     if spec.poles % 2:
         problems.append(f"machine.poles = {spec.poles}: must be even")
-    if st.bore_diameter >= st.outer_diameter:
-        problems.append(
-            f"stator.bore_diameter_mm = {_mm(st.bore_diameter)}: must be less than "
-            f"stator.outer_diameter_mm = {_mm(st.outer_diameter)}"
-        )
+    _operating_checks(spec, problems)
+    if lengths:
+        _length_checks(spec, problems)
+
+
+def _length_checks(spec: MachineSpec, problems: list[str]) -> None:
+    # every length is already below its reference (_plausibility): the bore below the
+    # outer diameter, each rotor length below the bore
+    st = spec.stator
     yoke = (st.outer_diameter - st.bore_diameter) / 2 - st.slot_depth
     if yoke <= spec.rotor.min_steel:
         problems.append(
-            f"stator.slot_depth_mm = {_mm(st.slot_depth)}: leaves a yoke of {_mm(yoke)} mm; "
-            f"the slot must be less deep than {_mm((st.outer_diameter - st.bore_diameter) / 2)}"
-            " mm minus the minimum steel"
+            f"stator.slot_depth_mm = {_mm(st.slot_depth)}: leaves a yoke of {_mm(yoke)} mm, "
+            f"not more than rotor.min_steel_mm = {_mm(spec.rotor.min_steel)}; the slot must be "
+            f"less deep than (stator.outer_diameter_mm {_mm(st.outer_diameter)} - "
+            f"stator.bore_diameter_mm {_mm(st.bore_diameter)}) / 2 - rotor.min_steel_mm = "
+            f"{_mm((st.outer_diameter - st.bore_diameter) / 2 - spec.rotor.min_steel)} mm"
         )
     if st.tip_height >= st.slot_depth:
         problems.append(
@@ -122,7 +208,8 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
     if spec.rotor.shaft_diameter / 2 >= spec.rotor_radius:
         problems.append(
             f"rotor.shaft_diameter_mm = {_mm(spec.rotor.shaft_diameter)}: must be less than "
-            f"the rotor diameter {_mm(2 * spec.rotor_radius)} mm"
+            f"the rotor diameter {_mm(2 * spec.rotor_radius)} mm = stator.bore_diameter_mm "
+            f"{_mm(st.bore_diameter)} - 2 x stator.airgap_mm {_mm(st.airgap)}"
         )
     if spec.rotor.tangential_rib < spec.rotor.min_rib:
         problems.append(
@@ -135,6 +222,9 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
                 f"rotor.barriers[{i}].post_mm = {_mm(b.post_width)}: thinner than "
                 f"rotor.min_rib_mm = {_mm(spec.rotor.min_rib)} (use 0 for no post)"
             )
+
+
+def _operating_checks(spec: MachineSpec, problems: list[str]) -> None:
     op = spec.operating
     if op.overload_current_peak_A is not None and op.overload_current_peak_A <= op.current_peak_A:
         problems.append(
@@ -142,11 +232,15 @@ def _cross_checks(spec: MachineSpec, problems: list[str]) -> None:
             f"operating.current_peak_A = {op.current_peak_A}"
         )
     dr = spec.drive
-    limit = dr.current_limit_peak_A or op.overload_current_peak_A or op.current_peak_A
+    limit, source = next((value, key) for value, key in (
+        (dr.current_limit_peak_A, "drive.current_limit_peak_A"),
+        (op.overload_current_peak_A, "operating.overload_current_peak_A"),
+        (op.current_peak_A, "operating.current_peak_A")) if value)
     if dr.flux_map_max_current_peak_A is not None and dr.flux_map_max_current_peak_A < limit:
         problems.append(
             f"drive.flux_map_max_current_peak_A = {dr.flux_map_max_current_peak_A}: must be at "
-            f"least the current limit {limit} A (the maps must cover the current circle)"
+            f"least the current limit {source} = {limit} (the maps must cover the current "
+            "circle)"
         )
 
 
@@ -214,21 +308,19 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         base_dir=base_dir,
         drive=DriveSpec(**sections["drive"]),
     )
-    _cross_checks(spec, problems)
+    problems.extend(_plausibility(spec))
+    _cross_checks(spec, problems, lengths=not problems)
     problems.extend(_winding_problems(spec))
     if not problems:
-        from fluxlab.geometry import geometry_problems
-
         problems.extend(geometry_problems(spec))
+    if not problems:
+        problems.extend(mesh_size_problems(spec))
     if problems:
-        raise SpecError(problems)
+        raise SpecError(list(dict.fromkeys(problems)))  # one message per problem
     return spec
 
 
 def _winding_problems(spec: MachineSpec) -> list[str]:
-    from fluxlab.errors import WindingError
-    from fluxlab.machine.winding import check_parallel_paths, winding_layout
-
     try:
         layout = winding_layout(
             spec.stator.slots, spec.poles, spec.winding.layers, spec.winding.coil_pitch_slots
@@ -251,7 +343,6 @@ def replace_path(spec: MachineSpec, path: str, value: Any) -> MachineSpec:
     ``path`` uses the file's own names and units, for example
     ``"rotor.barriers[1].end_angle_deg"`` (see :mod:`fluxlab.spec.keypath`).
     """
-    from fluxlab.spec.keypath import set_path
 
     raw = spec.raw
     set_path(raw, path, value)

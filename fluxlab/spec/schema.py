@@ -8,6 +8,7 @@ the first, so a designer sees all mistakes of a file at once.
 from __future__ import annotations
 
 import math
+import sys
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -30,6 +31,8 @@ __all__ = [
     "MATERIAL_REGIONS",
     "SECTIONS",
     "MAX_BARRIERS",
+    "LENGTH_FLOOR_MM",
+    "MAX_ELEMENTS_DEFAULT",
 ]
 
 MM = 1e-3  # m per mm
@@ -86,8 +89,47 @@ def _type_ok(value: Any, kind: type) -> bool:
     if isinstance(value, bool):
         return kind is bool
     if kind is float:
-        return isinstance(value, (int, float)) and math.isfinite(value)
+        return isinstance(value, (int, float))  # finiteness: _number_problem
     return isinstance(value, kind)
+
+
+#: Smallest non-zero length a machine file may give, mm: 1 um. Laminations are cut to
+#: hundredths of a millimetre, so a shorter length is a typing or unit error (common
+#: practice, no source); it also keeps every length far above float underflow.
+LENGTH_FLOOR_MM = 1e-3
+
+
+def _finite_problem(path: str, value: float) -> str | None:
+    """NaN, infinity or an int beyond the float range (a table built in code)."""
+    try:
+        number = float(value)
+    except OverflowError:
+        digits = str(value)
+        return (f"{path} = {digits[:8]}... ({len(digits)} digits): must be a finite number, "
+                f"got an integer beyond {sys.float_info.max:.3g}")
+    if not math.isfinite(number):
+        return f"{path} = {value!r}: must be a finite number, got {number!r}"
+    return None
+
+
+def _scale_problem(path: str, key: Key, value: float) -> str | None:
+    """A non-zero value that vanishes in SI units, or a length below the floor."""
+    si = float(value) * key.scale
+    zero = "0 or " if key.low == 0 and not key.low_open else ""
+    if key.scale == MM:
+        unit, least = "mm", LENGTH_FLOOR_MM
+    else:
+        unit = key.name.rsplit("_", 1)[-1]
+        unit = unit if unit in ("deg", "A", "V", "rpm", "C") else ""
+        least = sys.float_info.min / key.scale
+    if value != 0 and abs(si) < sys.float_info.min:
+        # zero or subnormal after the unit conversion: it would silently change class
+        # (a post of 5e-324 mm becomes 0 m, "no post")
+        return (f"{path} = {value!r}: vanishes when converted to SI units ({value!r} x "
+                f"{key.scale:.6g} = {si!r}); must be {zero}at least {least:.3g} {unit}".rstrip())
+    if key.scale == MM and value != 0 and abs(value) < LENGTH_FLOOR_MM:
+        return f"{path} = {value!r}: must be {zero}at least {LENGTH_FLOOR_MM} mm (1 um)"
+    return None
 
 
 def _limit_problem(path: str, key: Key, value: float) -> str | None:
@@ -149,11 +191,15 @@ def read_section(
             problems.append(f"{path} = {value!r}: must be one of {', '.join(key.choices)}")
             continue
         if key.kind in (int, float):
-            problem = _limit_problem(path, key, value)
+            if key.kind is float:
+                problem = (_finite_problem(path, value) or _limit_problem(path, key, value)
+                           or _scale_problem(path, key, value))
+            else:
+                problem = _limit_problem(path, key, value)
             if problem:
                 problems.append(problem)
                 continue
-            value = value * key.scale if key.kind is float else value
+            value = float(value) * key.scale if key.kind is float else value
         out[key.attr] = value
     return out
 
@@ -167,9 +213,11 @@ MACHINE_KEYS = (
 )
 STATOR_KEYS = (
     Key("slots", int, low=6, high=480),
-    Key("outer_diameter_mm", float, scale=MM, low=0, low_open=True),
+    # 20 m: about the largest stator cross-sections built (large hydro generators); common
+    # practice, no source. Every other length is bounded by this one (machine_file.py).
+    Key("outer_diameter_mm", float, scale=MM, low=0, low_open=True, high=20000),
     Key("bore_diameter_mm", float, scale=MM, low=0, low_open=True),
-    Key("airgap_mm", float, scale=MM, low=0, low_open=True),
+    Key("airgap_mm", float, scale=MM, low=0, low_open=True),  # plausible range: machine_file
     Key("slot_opening_mm", float, scale=MM, low=0, low_open=True),
     Key("tip_height_mm", float, scale=MM, low=0, low_open=True),
     Key("tooth_width_mm", float, default=None, scale=MM, low=0, low_open=True),
@@ -181,7 +229,9 @@ STATOR_KEYS = (
 WINDING_KEYS = (
     Key("layers", int, default=2, low=1, high=2),
     Key("coil_pitch_slots", int, low=1),
-    Key("turns_per_coil", int, low=1),
+    # 10000: far above the few hundred turns of a low-voltage machine's coil (common
+    # practice, no source)
+    Key("turns_per_coil", int, low=1, high=10_000),
     Key("parallel_paths", int, default=1, low=1),
     Key("fill_factor", float, default=0.45, low=0, low_open=True, high=0.8),
 )
@@ -198,6 +248,17 @@ BARRIER_KEYS = (
     Key("width_mm", float, scale=MM, low=0, low_open=True),
     Key("post_mm", float, default=0.0, scale=MM, low=0),
 )
+#: Default of ``mesh.max_elements``: estimated triangles of a sector. Measured on this
+#: project's 2-core machine (gmsh 4, demo machine with finer sizes): 2-4 s per 100k
+#: triangles up to 200k, 6.3 s per 100k at 450k (28 s, 370 MB), 9 s per 100k for a mesh
+#: graded from 50 mm to a 0.035 mm gap element (222k, other jobs running); the estimate
+#: runs 1-1.4 times gmsh's count. 500k estimated triangles mesh in 20-45 s, before any
+#: solve.
+MAX_ELEMENTS_DEFAULT = 500_000
+#: Highest ``mesh.max_elements`` a file may set: 20M triangles need several GB in gmsh
+#: alone (extrapolated from 370 MB at 450k) and hours to mesh; common practice, no source.
+MAX_ELEMENTS_HIGH = 20_000_000
+
 MESH_KEYS = (
     Key("size_mm", float, default=4.0, scale=MM, low=0.05, high=50),
     Key("rib_size_mm", float, default=None, scale=MM, low=0.01, high=20),
@@ -205,6 +266,8 @@ MESH_KEYS = (
     Key("steps_per_slot", int, default=24, low=4, high=400),
     Key("element_order", int, default=1, low=1, high=2),
     Key("averaging_positions", int, default=None, low=1, high=72),
+    # the estimate of fluxlab.mesh.machine_mesh.estimated_elements a sector may reach
+    Key("max_elements", int, default=MAX_ELEMENTS_DEFAULT, low=1000, high=MAX_ELEMENTS_HIGH),
 )
 OPERATING_KEYS = (
     Key("current_peak_A", float, low=0, low_open=True),

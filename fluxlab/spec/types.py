@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from fluxlab.materials.material import Material
-from fluxlab.spec.schema import MATERIAL_REGIONS
+from fluxlab.spec.schema import MATERIAL_REGIONS, MAX_ELEMENTS_DEFAULT
 
 __all__ = [
     "BarrierSpec",
@@ -98,6 +98,7 @@ class MeshSpec:
     steps_per_slot: int
     element_order: int
     averaging_positions: int | None = None
+    max_elements: int = MAX_ELEMENTS_DEFAULT
 
 
 @dataclass(frozen=True)

@@ -38,12 +38,14 @@ from fluxlab.studies.curves import (
     solve_positions,
     torque_vs_current_angle,
 )
+from fluxlab.studies.flux_density import region_flux_densities
 from fluxlab.studies.operating_point import (
     AveragedPoint,
     OperatingPoints,
     PointResult,
     averaged_points,
 )
+from fluxlab.studies.pool import StudyPool
 from fluxlab.version import __version__
 
 __all__ = ["StudySettings", "Evaluation", "evaluate", "averaging_note", "CONVENTIONS"]
@@ -147,8 +149,6 @@ def _get(study, name):
 
 
 def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) -> dict:
-    from fluxlab.studies.flux_density import region_flux_densities
-
     spec, model = evaluation_parts["spec"], evaluation_parts["model"]
     rated, ripple = evaluation_parts["rated"], evaluation_parts["ripple"]
     studies = evaluation_parts["angle_studies"]
@@ -284,7 +284,6 @@ def evaluate(
     at 1 inside a sweep that already uses the cores). ``linear_solver``: see
     :class:`fluxlab.machine.model.MachineModel`.
     """
-    from fluxlab.studies.pool import StudyPool
 
     settings = settings or StudySettings(**({"studies": studies} if studies else {}))
     say = progress or (lambda message: None)

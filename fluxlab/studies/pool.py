@@ -5,7 +5,8 @@ BLAS thread each: on two cores, competing thread pools slow the factorisations s
 times (DEVELOPERS.md, Speed). A :class:`StudyPool` can be opened before the machine is meshed:
 its workers import the numerical libraries meanwhile (about 1.5 s each), and each builds
 the model once, from the pickled spec and mesh, at its first study of that model (the
-assembly is cheap next to the solves).
+assembly is cheap next to the solves). Workers end with the process that opened the pool,
+even when it is killed (:mod:`fluxlab.studies.parent_watch`).
 """
 
 from __future__ import annotations
@@ -17,7 +18,9 @@ import uuid
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
+from fluxlab.machine.model import build_model
 from fluxlab.studies.blas_threads import single_thread_blas
+from fluxlab.studies.parent_watch import end_with_parent, parent_identity
 
 __all__ = ["Task", "StudyPool", "run_tasks"]
 
@@ -27,9 +30,11 @@ Task = tuple[str, Callable, tuple]
 _worker_model: tuple[str, object] | None = None  # (token, model) in a worker process
 
 
-def _warm_up() -> None:
-    """Worker initializer: import what the studies use while the parent meshes."""
-    from fluxlab.machine import model  # noqa: F401 - the imports are the point
+def _warm_up(parent_pid: int, started_by_main_thread: bool) -> None:
+    """Worker initializer: end with the parent (its pid and thread given by the parent). The
+    worker has imported this module, and with it the model and the solvers, by then: the
+    imports happen while the parent meshes."""
+    end_with_parent(parent_pid, started_by_main_thread)
 
 
 def _started() -> int:
@@ -39,8 +44,6 @@ def _started() -> int:
 def _run_in_worker(token: str, recipe: tuple, function: Callable, args: tuple):
     global _worker_model
     if _worker_model is None or _worker_model[0] != token:
-        from fluxlab.machine.model import build_model
-
         spec, mesh, linear_solver, newton_rtol = recipe
         built = build_model(spec, mesh, linear_solver)
         _worker_model = (token, dataclasses.replace(built, newton_rtol=newton_rtol))
@@ -62,7 +65,7 @@ class StudyPool:
             self._blas.__enter__()
             self._pool = ProcessPoolExecutor(
                 self.workers, mp_context=multiprocessing.get_context("spawn"),
-                initializer=_warm_up)
+                initializer=_warm_up, initargs=parent_identity())
             for _ in range(self.workers):  # a process is spawned per submission
                 self._pool.submit(_started)
 

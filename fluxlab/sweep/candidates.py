@@ -20,6 +20,7 @@ from pathlib import Path
 from fluxlab.spec.keypath import set_path
 from fluxlab.sweep.plan import plan_points
 from fluxlab.sweep.sweepfile import SweepSpec
+from fluxlab.version import __version__
 
 __all__ = ["DEFAULT_EVALUATOR", "Candidate", "canonical_json", "source_digest", "candidate_key",
            "make_candidates"]
@@ -73,7 +74,6 @@ def candidate_key(machine: dict, studies: str, evaluator: str | None = None,
                   base_dir: Path | None = None) -> str:
     """The content key (64 hex digits) of a machine table evaluated with ``studies``;
     ``base_dir`` is where the machine's relative file references start."""
-    from fluxlab.version import __version__
 
     content = {"machine": machine, "studies": studies, "fluxlab_version": __version__,
                "source": source_digest(), "files": _file_digests(machine, base_dir)}

@@ -14,7 +14,9 @@ from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
+from fluxlab.errors import FluxlabError
 from fluxlab.studies.blas_threads import single_thread_blas
+from fluxlab.studies.parent_watch import end_with_parent, parent_identity
 from fluxlab.sweep.worker import init_worker
 
 __all__ = ["Executor", "LocalPoolExecutor", "DaskExecutor", "lost_task_result"]
@@ -97,12 +99,21 @@ class Executor(ABC):
                 self._cancel(set(running))
 
 
+def _init_local_worker(parent_pid: int, started_by_main_thread: bool) -> None:
+    """Initializer of a local pool's worker: end with the sweep's process (even when it is
+    killed; :mod:`fluxlab.studies.parent_watch`), then :func:`init_worker`."""
+    end_with_parent(parent_pid, started_by_main_thread)
+    init_worker()
+
+
 class LocalPoolExecutor(Executor):
     """A pool of local worker processes (``spawn`` start method, one BLAS thread each).
 
     ``spawn`` (not ``fork``): forked workers deadlocked in CHOLMOD and livelocked in
     threaded MKL in earlier measurements (DEVELOPERS.md, Speed). A pool broken by a dead
-    worker is replaced, so the sweep goes on.
+    worker is replaced, so the sweep goes on. The workers end with this process, even when
+    it is killed; create and use the executor in one thread (the one that submits starts
+    the workers).
 
     Parameters
     ----------
@@ -121,7 +132,7 @@ class LocalPoolExecutor(Executor):
         from concurrent.futures import ProcessPoolExecutor
 
         return ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
-                                   initializer=init_worker)
+                                   initializer=_init_local_worker, initargs=parent_identity())
 
     def capacity(self) -> int:
         return 2 * self.workers
@@ -171,8 +182,6 @@ class DaskExecutor(Executor):
         try:
             from distributed import Client
         except ImportError as err:  # an optional extra
-            from fluxlab.errors import FluxlabError
-
             raise FluxlabError("a scheduler address needs dask.distributed: "
                                "pip install 'fluxlab[cluster]'") from err
         self._own = not isinstance(scheduler, Client)

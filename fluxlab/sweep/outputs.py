@@ -14,7 +14,10 @@ from pathlib import Path
 import numpy as np
 
 from fluxlab.errors import SpecError
+from fluxlab.report.compare import CompareEntry, write_compare_pdf
 from fluxlab.report.figures import save_figure
+from fluxlab.report.plots.sweep import front_rows, plot_parameters, plot_pareto
+from fluxlab.spec.machine_file import machine_from_dict
 from fluxlab.sweep.store import STORE_NAME, ResultStore
 from fluxlab.sweep.sweepfile import SweepSpec
 
@@ -25,7 +28,6 @@ log = logging.getLogger(__name__)
 
 def best_rows(rows: Sequence[dict], count: int = 4) -> list[dict]:
     """Up to ``count`` done rows: the Pareto front by descending torque, then by torque."""
-    from fluxlab.report.plots.sweep import front_rows
 
     chosen = front_rows(rows)[:count]
     seen = {r["key"] for r in chosen}
@@ -49,8 +51,6 @@ def _curve(curves: dict | None, name: str, x_name: str):
 
 def compare_entries(rows: Sequence[dict], store: ResultStore, base_dir: Path) -> list:
     """Comparison-sheet entries of sweep rows, with outlines and curves from the store."""
-    from fluxlab.report.compare import CompareEntry
-    from fluxlab.spec.machine_file import machine_from_dict
 
     entries = []
     for row in rows:
@@ -80,8 +80,6 @@ def write_sweep_outputs(sweep: SweepSpec, rows: Sequence[dict], out_dir: str | P
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from fluxlab.report.compare import write_compare_pdf
-    from fluxlab.report.plots.sweep import plot_parameters, plot_pareto
 
     out = Path(out_dir)
     if not any(r.get("status") == "done" for r in rows):

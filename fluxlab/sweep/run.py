@@ -14,7 +14,7 @@ from pathlib import Path
 from fluxlab.sweep.candidates import DEFAULT_EVALUATOR, Candidate, make_candidates
 from fluxlab.sweep.executors import DaskExecutor, Executor, LocalPoolExecutor
 from fluxlab.sweep.progress import ProgressBar
-from fluxlab.sweep.store import STORE_NAME, ResultStore
+from fluxlab.sweep.store import STORE_NAME, FolderLock, ResultStore
 from fluxlab.sweep.sweepfile import SweepSpec, load_sweep
 from fluxlab.sweep.table import results_table, write_results_csv
 from fluxlab.sweep.worker import evaluate_task, resolve_evaluator
@@ -110,6 +110,9 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
         The sweep file is invalid.
     ValueError
         An ``evaluator`` function that worker processes cannot import by name.
+    FluxlabError
+        Another sweep is running into ``out_dir`` (see :class:`~fluxlab.sweep.store.FolderLock`:
+        one sweep per folder, so no candidate is evaluated twice).
     KeyboardInterrupt
         On Ctrl-C, after cancelling what had not finished; finished results stay stored and
         ``results.csv`` lists the rest as pending.
@@ -120,7 +123,7 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
     out.mkdir(parents=True, exist_ok=True)
     ref = evaluator_reference(evaluator)
     candidates = make_candidates(sweep, ref)
-    with ResultStore(out / STORE_NAME) as store:
+    with FolderLock(out), ResultStore(out / STORE_NAME) as store:
         todo = _to_run(candidates, store.statuses(), retry_failed)
         log.info("%s: %d candidates, %d distinct, %d to evaluate", sweep.name, len(candidates),
                  len({c.key for c in candidates}), len(todo))

@@ -13,12 +13,65 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 
+from fluxlab.errors import FluxlabError
 from fluxlab.sweep.candidates import canonical_json
+from fluxlab.version import __version__
 
-__all__ = ["STATUSES", "StoredResult", "ResultStore", "STORE_NAME"]
+__all__ = ["STATUSES", "StoredResult", "ResultStore", "STORE_NAME", "LOCK_NAME", "FolderLock"]
 
 STATUSES = ("done", "rejected", "failed")
 STORE_NAME = "results.sqlite"
+LOCK_NAME = ".fluxlab_sweep.lock"
+
+
+class FolderLock:
+    """An exclusive lock on a sweep's output folder, held while a sweep runs there.
+
+    An advisory ``flock`` on :data:`LOCK_NAME` in the folder: the kernel releases it when
+    the process ends in any way (even SIGKILL), so a crashed sweep never leaves the folder
+    locked. A second sweep into the folder is refused at once instead of evaluating the
+    same candidates again. (The lock file itself stays; it holds the owner's pid, for
+    information only.) Where ``fcntl`` is missing (Windows) no lock is taken.
+
+    Raises
+    ------
+    FluxlabError
+        On entering, when another process holds the lock.
+    """
+
+    def __init__(self, folder: str | Path):
+        self.path = Path(folder) / LOCK_NAME
+        self._file = None
+
+    def __enter__(self) -> FolderLock:
+        import os
+
+        try:
+            import fcntl
+        except ImportError:  # not POSIX: no lock
+            return self
+
+        f = self.path.open("a+")
+        try:
+            fcntl.flock(f.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError as err:
+            f.seek(0)
+            owner = f.read().strip()
+            f.close()
+            raise FluxlabError(
+                f"{self.path.parent}: another sweep is running into this folder (lock "
+                f"{self.path} held{' by pid ' + owner if owner else ''}); wait for it to end "
+                "or choose another --out") from err
+        f.truncate(0)
+        f.write(f"{os.getpid()}\n")
+        f.flush()
+        self._file = f
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._file is not None:
+            self._file.close()  # closing the file releases the flock
+            self._file = None
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS results (
@@ -111,7 +164,6 @@ class ResultStore:
 
         A replaced row keeps its ``created_at`` and counts one more attempt.
         """
-        from fluxlab.version import __version__
 
         if status not in STATUSES:
             raise ValueError(f"status = {status!r}: must be one of {', '.join(STATUSES)}")

@@ -38,6 +38,7 @@ from typing import Any
 
 from fluxlab.errors import SpecError
 from fluxlab.spec.keypath import get_path, key_kind, parse_path, set_path
+from fluxlab.spec.machine_file import machine_from_dict
 from fluxlab.spec.tomlfile import read_toml
 
 __all__ = [
@@ -251,7 +252,6 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
         With every problem found: unknown keys, a missing or invalid base machine, a path
         that names no numeric key, an empty value list, ``low >= high``, an unknown plan.
     """
-    from fluxlab.spec.machine_file import machine_from_dict
 
     base_dir = Path(base_dir)
     if not isinstance(data, dict):

@@ -19,6 +19,8 @@ from importlib import import_module
 from pathlib import Path
 from typing import Any
 
+from fluxlab.errors import SpecError
+from fluxlab.spec.machine_file import machine_from_dict
 from fluxlab.studies.blas_threads import BLAS_THREAD_VARIABLES, limit_loaded_blas
 
 __all__ = ["init_worker", "resolve_evaluator", "jsonable", "evaluate_task", "curves_of"]
@@ -94,8 +96,6 @@ def evaluate_task(task: dict) -> dict:
         ``key``, ``status`` (done / rejected / failed), ``summary``, ``curves``, ``message``
         and ``elapsed_s`` (wall time of this call, s).
     """
-    from fluxlab.errors import SpecError
-    from fluxlab.spec.machine_file import machine_from_dict
 
     start = time.perf_counter()
     out = {"key": task["key"], "status": "done", "summary": None, "curves": None,

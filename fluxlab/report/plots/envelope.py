@@ -10,6 +10,7 @@ import math
 
 import numpy as np
 
+from fluxlab.envelope.interp import FluxInterpolator
 from fluxlab.report.figures import caution_line
 
 __all__ = [
@@ -71,7 +72,6 @@ def plot_cross_saturation(fmap, axes=None, curves: int = 5):
 def plot_mtpa(fmap, mtpa, ax=None, current_limit_peak_A: float | None = None,
               legend_below: bool = True):
     """MTPA trajectory over the torque contours in the (id, iq) plane."""
-    from fluxlab.envelope.interp import FluxInterpolator
 
     ax = _axes(1, None if ax is None else [ax], (6, 5.2))[0]
     i_d = np.linspace(0, fmap.i_d_A[-1], 80)

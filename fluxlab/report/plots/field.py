@@ -14,7 +14,10 @@ import numpy as np
 from fluxlab.errors import SpecError
 from fluxlab.fem.sector_ties import sector_wraps
 from fluxlab.fem.solver import FieldSolution
+from fluxlab.geometry import rotor_regions, stator_regions
+from fluxlab.geometry.csg import to_shapely
 from fluxlab.machine.model import MachineModel
+from fluxlab.machine.winding import machine_symmetry
 from fluxlab.mesh.machine_mesh import MachineMesh
 from fluxlab.report.plots.mesh import region_colour
 from fluxlab.spec.types import MachineSpec
@@ -255,7 +258,6 @@ def _visible(regions) -> list[tuple[str, object]]:
     """
     import shapely
 
-    from fluxlab.geometry.csg import to_shapely
 
     out = []
     cover = None
@@ -282,8 +284,6 @@ def outline_polygons(spec: MachineSpec, full: bool = False) -> list[tuple[str, o
     """
     from shapely import affinity
 
-    from fluxlab.geometry import rotor_regions, stator_regions
-    from fluxlab.machine.winding import machine_symmetry
 
     sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
     sector = _visible(rotor_regions(spec, sector_angle)) + _visible(
@@ -356,7 +356,6 @@ def plot_outline(spec: MachineSpec, ax=None, *, full: bool = False):
     import matplotlib.pyplot as plt
     from matplotlib.collections import LineCollection, PathCollection
 
-    from fluxlab.machine.winding import machine_symmetry
 
     if ax is None:
         _, ax = plt.subplots(figsize=(5, 5), layout="constrained")
