@@ -41,7 +41,6 @@ _COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope
 def _parser() -> argparse.ArgumentParser:
     from importlib import import_module
 
-
     parser = argparse.ArgumentParser(
         prog="fluxlab",
         description="Evaluate flux-barrier rotors of synchronous reluctance machines "

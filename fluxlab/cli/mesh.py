@@ -26,7 +26,6 @@ def run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-
     spec = load_machine(args.machine)
     out = Path(args.out)
     output = open_machine_output(out, "mesh", spec, args.overwrite)

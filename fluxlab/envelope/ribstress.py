@@ -90,7 +90,6 @@ def _rib_cutters(spec: MachineSpec, barrier):
     """Strips through the tangential ribs at both ends of a barrier, out past the surface."""
     from shapely.geometry import Point
 
-
     radius, rib = spec.rotor_radius, spec.rotor.tangential_rib
     near = barrier.difference(Point(0, 0).buffer(radius - rib - _EPS, quad_segs=720))
     pieces = getattr(near, "geoms", [near])

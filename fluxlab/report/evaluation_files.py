@@ -51,7 +51,6 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
     """The torque and inductance curves."""
     import matplotlib.pyplot as plt
 
-
     plots = [
         ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
         ("torque_vs_current_angle", evaluation.torque_vs_angle or None, plot_torque_vs_angle),
@@ -70,7 +69,6 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
 def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
     """The field at the rated point and the winding layout."""
     import matplotlib.pyplot as plt
-
 
     fig, ax = plt.subplots(figsize=(8, 7.5))
     plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)

@@ -95,7 +95,6 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     import matplotlib.pyplot as plt
     from matplotlib.backends.backend_pdf import PdfPages
 
-
     spec, summary = evaluation.spec, evaluation.summary
     fig = plt.figure(figsize=(11.69, 8.27))
     grid = fig.add_gridspec(2, 3, left=0.05, right=0.96, top=0.86, bottom=0.12,

@@ -80,7 +80,6 @@ def write_sweep_outputs(sweep: SweepSpec, rows: Sequence[dict], out_dir: str | P
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-
     out = Path(out_dir)
     if not any(r.get("status") == "done" for r in rows):
         log.warning("%s: no candidate evaluated, no figures drawn", sweep.name)

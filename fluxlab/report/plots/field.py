@@ -258,7 +258,6 @@ def _visible(regions) -> list[tuple[str, object]]:
     """
     import shapely
 
-
     out = []
     cover = None
     for name, shape in reversed(regions):
@@ -283,7 +282,6 @@ def outline_polygons(spec: MachineSpec, full: bool = False) -> list[tuple[str, o
     geometry each time). Overlaps are resolved as in meshing: later regions win.
     """
     from shapely import affinity
-
 
     sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
     sector = _visible(rotor_regions(spec, sector_angle)) + _visible(
@@ -355,7 +353,6 @@ def plot_outline(spec: MachineSpec, ax=None, *, full: bool = False):
     """
     import matplotlib.pyplot as plt
     from matplotlib.collections import LineCollection, PathCollection
-
 
     if ax is None:
         _, ax = plt.subplots(figsize=(5, 5), layout="constrained")
