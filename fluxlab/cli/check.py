@@ -4,12 +4,13 @@ from __future__ import annotations
 
 import math
 
+from fluxlab.geometry.barrier_ends import slot_pitch
 from fluxlab.geometry.rotor import opening_angles
 from fluxlab.machine.winding import machine_symmetry, winding_factor, winding_layout
 from fluxlab.spec.machine_file import load_machine
 from fluxlab.studies.averaging import averaging_positions, residual_orders, torque_period
 
-__all__ = ["add_args", "opening_lines", "run", "summary_lines"]
+__all__ = ["add_args", "opening_lines", "rotor_slot_lines", "run", "summary_lines"]
 
 
 def add_args(parser) -> None:
@@ -37,6 +38,27 @@ def opening_lines(spec) -> list[str]:
     return lines
 
 
+def rotor_slot_lines(spec) -> list[str]:
+    """The barrier ends placed by ``rotor.rotor_slots_per_pole_pair`` (none without it).
+
+    The end angles set from n_r, and n_r beside the stator's slots per pole pair Q/p with
+    their difference (the rule of fluxlab.geometry.barrier_ends asks for about 4; printed,
+    not judged).
+    """
+
+    n_r = spec.rotor.rotor_slots_per_pole_pair
+    if n_r is None:
+        return []
+    p, slots = spec.pole_pairs, spec.stator.slots
+    ends = ", ".join(f"{math.degrees(b.end_angle):.2f}" for b in spec.rotor.barriers)
+    return [
+        f"barrier ends end_angle_deg = {ends} (rotor.barriers[0] first, from the q-axis), "
+        f"at the rotor slot pitch {math.degrees(slot_pitch(p, n_r)):.4g} deg",
+        f"slot rule    rotor slots per pole pair n_r = {n_r}, stator slots per pole pair Q/p = "
+        f"{slots / p:g}, difference Q/p - n_r = {slots / p - n_r:g}",
+    ]
+
+
 def summary_lines(spec) -> list[str]:
     """A short human summary of a validated machine."""
 
@@ -53,6 +75,7 @@ def summary_lines(spec) -> list[str]:
         f"rotor        {len(r.barriers)} {r.barrier_shape} barrier(s) per pole, shaft "
         f"{r.shaft_diameter * 1e3:g} mm, tangential rib {r.tangential_rib * 1e3:g} mm",
         *opening_lines(spec),
+        *rotor_slot_lines(spec),
         "materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
         f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
         f"{'anti-' if sign < 0 else ''}periodic edges)",

@@ -182,7 +182,7 @@ def _sweep_task(model, current_peak, current_angle, steps):
     out, initial = [], None
     for step in steps:
         pt = solve_point(model, current_peak, current_angle, int(step), initial)
-        initial = pt.solution.a
+        initial = pt.start
         out.append(pt.solution.b)
     return np.array(out)
 

@@ -60,7 +60,9 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
     for stem, data, plot in plots:
         if data is not None:
             fig, ax = plt.subplots(figsize=(7, 4.3))
-            plot(data, ax=ax)
+            extra = ({"unskewed": evaluation.torque_vs_position_unskewed}
+                     if plot is plot_torque_vs_position else {})
+            plot(data, ax=ax, **extra)
             fig.tight_layout()
             written += save_figure(fig, out, stem, dpi=170)
     return written

@@ -9,7 +9,8 @@ __all__ = ["CAUTION", "caution_line", "save_figure"]
 
 #: What the results are and are not: on every sheet and in summary.json.
 CAUTION = (
-    "Design estimate of a 2-D magnetostatic model: no end effects, no skew, no eddy currents, "
+    "Design estimate of a 2-D magnetostatic model: no end effects, skew only as modelled "
+    "slices, no eddy currents, "
     "no thermal or mechanical analysis. A machine built from these figures must be checked by "
     "structural (rotor ribs at overspeed), thermal and electrical analysis and by test, under "
     "the applicable standards and local codes, by qualified engineers."

@@ -50,6 +50,10 @@ def key_figures(summary: dict) -> list[tuple[str, str]]:
         rows.append((f"MTPA at {summary['overload_current_peak_A']:g} A (deg; N·m)",
                      f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}; "
                      f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
+    if summary.get("skew"):
+        rows.insert(9, ("without skew: torque (N·m); ripple (%)",
+                        f"{_fmt(summary['torque_mean_unskewed_Nm'])}; "
+                        f"{_fmt(summary['torque_ripple_unskewed_pct'], 3)}"))
     rows += _flux_density_rows(summary.get("flux_density"))
     rows.append(("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"))
     return rows
@@ -103,7 +107,9 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     fig.text(0.05, 0.915,
              f"{spec.poles} poles, {spec.stator.slots} slots, {len(spec.rotor.barriers)} "
              f"{spec.rotor.barrier_shape} barrier(s) per pole, stack {spec.stack_length * 1e3:g} "
-             f"mm, rotor steel {spec.materials['rotor'].name}.   fluxlab "
+             f"mm, rotor steel {spec.materials['rotor'].name}"
+             + (f", skew {summary['skew']['angle_deg']:.3g} deg in {summary['skew']['slices']} "
+                "slices" if summary.get("skew") else "") + ".   fluxlab "
              f"{summary['fluxlab_version']}, {datetime.date.today().isoformat()}\n"
              "Currents are peak phase amperes; current angle from the d-axis (least reluctance); "
              "saliency ratio = Ld/Lq; amplitude-invariant Park transform; counter-clockwise "
@@ -122,7 +128,9 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     ]
     for data, plot, cell, title in curves:
         if data is not None:
-            plot(data, ax=fig.add_subplot(cell)).set_title(title)
+            extra = ({"unskewed": evaluation.torque_vs_position_unskewed}
+                     if plot is plot_torque_vs_position else {})
+            plot(data, ax=fig.add_subplot(cell), **extra).set_title(title)
     if field_solution is not None:
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
             "Field at the rated point, position 0")

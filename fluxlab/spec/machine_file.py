@@ -10,11 +10,18 @@ and radians. Every problem found in a file is reported together in one :class:`S
 from __future__ import annotations
 
 import json
+import math
 from pathlib import Path
 from typing import Any
 
 from fluxlab.errors import MaterialError, SpecError, WindingError
 from fluxlab.geometry import geometry_problems
+from fluxlab.geometry.barrier_ends import (
+    SLOTS_KEY,
+    mixing_problems,
+    resolve_end_angles,
+    tag_end_angle_problems,
+)
 from fluxlab.machine.winding import check_parallel_paths, winding_layout
 from fluxlab.materials.files import resolve_material
 from fluxlab.mesh.machine_mesh import mesh_size_problems
@@ -30,6 +37,7 @@ from fluxlab.spec.schema import (
     OPERATING_KEYS,
     ROTOR_KEYS,
     SECTIONS,
+    SKEW_KEYS,
     STATOR_KEYS,
     WINDING_KEYS,
     read_section,
@@ -43,6 +51,7 @@ from fluxlab.spec.types import (
     OperatingSpec,
     RegionMaterials,
     RotorSpec,
+    SkewSpec,
     StatorSpec,
     WindingSpec,
 )
@@ -51,9 +60,17 @@ __all__ = [
     "load_machine",
     "machine_from_dict",
     "replace_path",
+    "without_skew",
 ]
 
-def _read_barriers(data: Any, problems: list[str]) -> tuple[BarrierSpec, ...]:
+_END_KEYS = tuple(k for k in BARRIER_KEYS if k.name != "end_angle_deg")
+
+
+def _read_barriers(data: Any, problems: list[str], n_r: Any = None
+                   ) -> tuple[BarrierSpec, ...]:
+    """The barriers; ``n_r``: rotor.rotor_slots_per_pole_pair as written, when given no
+    barrier may give end_angle_deg (its end angle is nan here, set by resolve_end_angles)."""
+    by_pitch = n_r is not None
     if data is None:
         return ()  # a round rotor: no barriers
     if not isinstance(data, list) or not data:
@@ -62,13 +79,18 @@ def _read_barriers(data: Any, problems: list[str]) -> tuple[BarrierSpec, ...]:
         return ()
     if len(data) > MAX_BARRIERS:
         problems.append(f"rotor.barriers: {len(data)} barriers, at most {MAX_BARRIERS} allowed")
-    barriers = []
+    barriers, keys = [], _END_KEYS if by_pitch else BARRIER_KEYS
+    problems.extend(mixing_problems(data, n_r) if by_pitch else [])
     for i, item in enumerate(data):
-        values = read_section(item, f"rotor.barriers[{i}]", BARRIER_KEYS, problems)
-        if len(values) == len(BARRIER_KEYS):
-            barriers.append(
-                BarrierSpec(values["depth"], values["end_angle"], values["width"], values["post"])
-            )
+        if by_pitch and isinstance(item, dict):
+            item = {k: v for k, v in item.items() if k != "end_angle_deg"}
+        values = read_section(item, f"rotor.barriers[{i}]", keys, problems)
+        missing = f"rotor.barriers[{i}].end_angle_deg: required key is missing"
+        if missing in problems:
+            problems[problems.index(missing)] += f" (or give {SLOTS_KEY} instead of every one)"
+        if len(values) == len(keys):
+            barriers.append(BarrierSpec(values["depth"], values.get("end_angle", math.nan),
+                                        values["width"], values["post"]))
     return tuple(barriers) if len(barriers) == len(data) else ()
 
 
@@ -288,9 +310,14 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         else rotor_raw
     )
     rotor_values = read_section(rotor_plain, "rotor", ROTOR_KEYS, problems)
-    barriers = _read_barriers(rotor_raw.get("barriers") if isinstance(rotor_raw, dict) else None,
-                              problems)
+    barrier_data = rotor_raw.get("barriers") if isinstance(rotor_raw, dict) else None
+    n_r = rotor_raw.get("rotor_slots_per_pole_pair") if isinstance(rotor_raw, dict) else None
+    barriers = resolve_end_angles(
+        _read_barriers(barrier_data, problems, n_r), barrier_data,
+        rotor_values.get("rotor_slots_per_pole_pair"), sections["machine"].get("poles"), problems)
     materials = _read_materials(raw.get("materials", {}), base_dir, problems)
+    skew = (read_section(raw["skew"], "skew", SKEW_KEYS, problems)
+            if raw.get("skew") is not None else None)
     if problems:
         raise SpecError(problems)
     sections["mesh"]["rib_size"] = sections["mesh"].get("rib_size")
@@ -307,12 +334,14 @@ def machine_from_dict(raw: dict, base_dir: Path | str = ".") -> MachineSpec:
         raw_json=json.dumps(raw, default=_plain),
         base_dir=base_dir,
         drive=DriveSpec(**sections["drive"]),
+        skew=SkewSpec(**skew) if skew else None,
     )
     problems.extend(_plausibility(spec))
     _cross_checks(spec, problems, lengths=not problems)
     problems.extend(_winding_problems(spec))
     if not problems:
-        problems.extend(geometry_problems(spec))
+        problems.extend(tag_end_angle_problems(geometry_problems(spec), spec.poles,
+                                               spec.rotor.rotor_slots_per_pole_pair))
     if not problems:
         problems.extend(mesh_size_problems(spec))
     if problems:
@@ -346,4 +375,11 @@ def replace_path(spec: MachineSpec, path: str, value: Any) -> MachineSpec:
 
     raw = spec.raw
     set_path(raw, path, value)
+    return machine_from_dict(raw, spec.base_dir)
+
+
+def without_skew(spec: MachineSpec) -> MachineSpec:
+    """The same machine with a straight rotor (``[skew]`` left out), re-validated."""
+    raw = spec.raw
+    raw.pop("skew", None)
     return machine_from_dict(raw, spec.base_dir)

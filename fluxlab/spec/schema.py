@@ -30,6 +30,7 @@ __all__ = [
     "DRIVE_KEYS",
     "MATERIAL_REGIONS",
     "SECTIONS",
+    "SKEW_KEYS",
     "MAX_BARRIERS",
     "LENGTH_FLOOR_MM",
     "MAX_ELEMENTS_DEFAULT",
@@ -241,6 +242,10 @@ ROTOR_KEYS = (
     Key("tangential_rib_mm", float, scale=MM, low=0, low_open=True),
     Key("min_rib_mm", float, default=0.3, scale=MM, low=0, low_open=True),
     Key("min_steel_mm", float, default=1.5, scale=MM, low=0, low_open=True),
+    # n_r: barrier ends at the rotor slot pitch, instead of every end_angle_deg
+    # (fluxlab.geometry.barrier_ends); at most stator.slots' limit, as n_r is compared
+    # with the stator's slots per pole pair
+    Key("rotor_slots_per_pole_pair", int, default=None, low=1, high=480),
 )
 BARRIER_KEYS = (
     Key("depth_mm", float, scale=MM, low=0, low_open=True),
@@ -288,5 +293,11 @@ DRIVE_KEYS = (
     Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
 )
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
-SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating", "drive")
+#: ``[skew]`` (optional): the rotor's skew over the stack, modelled by slices.
+SKEW_KEYS = (
+    Key("angle_deg", float, scale=DEG, low=0, low_open=True, high=180),
+    Key("slices", int, low=2, high=64),
+)
+SECTIONS = ("machine", "stator", "winding", "rotor", "materials", "mesh", "operating", "drive",
+            "skew")
 MAX_BARRIERS = 5

@@ -22,6 +22,7 @@ __all__ = [
     "MeshSpec",
     "OperatingSpec",
     "DriveSpec",
+    "SkewSpec",
     "RegionMaterials",
     "MachineSpec",
 ]
@@ -72,7 +73,11 @@ class WindingSpec:
 
 @dataclass(frozen=True)
 class RotorSpec:
-    """Flux-barrier rotor, SI units; barriers ordered from the surface inwards."""
+    """Flux-barrier rotor, SI units; barriers ordered from the surface inwards.
+
+    ``rotor_slots_per_pole_pair``: n_r when the file places the barrier ends at the rotor
+    slot pitch (their ``end_angle`` resolved from it at load time), else None.
+    """
 
     shaft_diameter: float
     barrier_shape: str
@@ -80,6 +85,7 @@ class RotorSpec:
     min_rib: float
     min_steel: float
     barriers: tuple[BarrierSpec, ...]
+    rotor_slots_per_pole_pair: int | None = None
 
 
 @dataclass(frozen=True)
@@ -138,6 +144,17 @@ class DriveSpec:
 
 
 @dataclass(frozen=True)
+class SkewSpec:
+    """A skewed rotor (section ``skew``): ``angle``, rad mechanical over the stack, modelled
+    by ``slices`` axial slices whose rotor positions are offset equally, spacing
+    angle / slices, centred on zero (the midpoint rule of a continuous skew, and exactly a
+    step skew of ``slices`` segments)."""
+
+    angle: float
+    slices: int
+
+
+@dataclass(frozen=True)
 class RegionMaterials(Mapping):
     """The material of each region kind, a read-only mapping (``materials["rotor"]``)."""
 
@@ -177,6 +194,7 @@ class MachineSpec:
     raw_json: str = field(repr=False, compare=False)
     base_dir: Path = field(default=Path("."), repr=False, compare=False)
     drive: DriveSpec = field(default_factory=DriveSpec)
+    skew: SkewSpec | None = None
 
     @property
     def raw(self) -> dict:

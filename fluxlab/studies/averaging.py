@@ -46,6 +46,9 @@ __all__ = [
     "division_unit",
     "ripple_positions",
     "position_counts",
+    "skew_offsets",
+    "skew_step_offsets",
+    "effective_skew_deg",
 ]
 
 #: Smallest default count: orders 1 to 3 of the torque period cancel.
@@ -150,3 +153,28 @@ def position_counts(spec) -> list[int]:
     if spec.drive.flux_map_positions:
         counts.append(spec.drive.flux_map_positions)
     return counts
+
+
+def skew_offsets(spec) -> tuple[float, ...]:
+    """Rotor offsets (rad, mechanical) of the skew slices, centred on zero; (0.0,) unskewed.
+
+    ``slices`` offsets spaced angle / slices: the midpoint rule of a continuous skew of
+    ``angle``, and exactly a step skew of ``slices`` segments.
+    """
+    if spec.skew is None:
+        return (0.0,)
+    n, spacing = spec.skew.slices, spec.skew.angle / spec.skew.slices
+    return tuple((k - (n - 1) / 2) * spacing for k in range(n))
+
+
+def skew_step_offsets(model) -> tuple[int, ...]:
+    """The slice offsets in whole rotor steps of ``model``'s mesh (rounded to the nearest)."""
+    return tuple(round(offset / model.step_angle) for offset in skew_offsets(model.spec))
+
+
+def effective_skew_deg(model) -> float:
+    """The skew angle the slices model on this mesh, deg: slices x their step spacing."""
+    steps = skew_step_offsets(model)
+    if len(steps) < 2:
+        return 0.0
+    return math.degrees((steps[1] - steps[0]) * len(steps) * model.step_angle)

@@ -123,7 +123,7 @@ def solve_positions(
     points, initial = [], None
     for k, step in enumerate(steps):
         point = solve_point(model, current_peak, current_angle, int(step), initial)
-        initial = point.solution.a
+        initial = point.start
         points.append(point)
         if progress:
             progress(f"torque vs position {k + 1}/{len(steps)}")

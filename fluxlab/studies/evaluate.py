@@ -8,6 +8,7 @@ machine's averaging positions (:mod:`fluxlab.studies.averaging`).
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import math
 import time
@@ -19,9 +20,11 @@ import numpy as np
 from fluxlab.fem.solver import linear_backend
 from fluxlab.machine.model import MachineModel, build_model
 from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.spec.machine_file import without_skew
 from fluxlab.spec.types import MachineSpec
 from fluxlab.studies.averaging import (
     averaging_positions,
+    effective_skew_deg,
     periods_per_revolution,
     residual_orders,
     torque_period,
@@ -107,6 +110,7 @@ class Evaluation:
     torque_vs_angle: list[TorqueVsAngle]
     inductances: InductanceCurves | None
     timings_s: dict = field(default_factory=dict)
+    torque_vs_position_unskewed: TorqueVsPosition | None = None
 
     def operating_points(self) -> OperatingPoints:
         """The rated point and the MTPA per current that the envelope reports as well."""
@@ -178,6 +182,7 @@ def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) ->
         "mtpa_solves": sum(s.mtpa_solves for s in studies) if studies else None,
         "averaging": {**averaging_note(spec),
                       "ripple_positions": len(ripple.torque_Nm) if ripple else None},
+        **_skew_figures(model, evaluation_parts["unskewed"]),
         "flux_density": region_flux_densities(model, evaluation_parts["point"].solution),
         "nodes": int(model.mesh.mesh.p.shape[1]),
         "elements": int(model.mesh.mesh.t.shape[1]),
@@ -190,6 +195,19 @@ def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) ->
         "conventions": CONVENTIONS,
         "fluxlab_version": __version__,
         "wall_time_s": elapsed,
+    }
+
+
+def _skew_figures(model, unskewed: TorqueVsPosition | None) -> dict:
+    """The skew (effective angle on this mesh, slices, 2-D solves per operating point) and,
+    for a skewed rotor, the same rotor's figures straight."""
+    if model.spec.skew is None:
+        return {"skew": None}
+    return {
+        "skew": {"angle_deg": effective_skew_deg(model), "slices": model.spec.skew.slices,
+                 "solves_per_point": model.spec.skew.slices},
+        "torque_mean_unskewed_Nm": unskewed.torque_maxwell_mean_Nm if unskewed else None,
+        "torque_ripple_unskewed_pct": unskewed.ripple_pct if unskewed else None,
     }
 
 
@@ -262,8 +280,16 @@ def _full_studies(model, settings, angle, pool, say) -> dict:
     else:
         rated = studies[0].at(math.degrees(angle))
     ripple, points = _ripple_result(model, done)
+    unskewed = None
+    if model.spec.skew is not None:  # the same rotor straight, for the comparison
+        plain = dataclasses.replace(build_model(without_skew(model.spec), model.mesh,
+                                                model.linear_solver),
+                                    newton_rtol=model.newton_rtol)
+        say("torque vs position without skew, for comparison")
+        unskewed, _ = _ripple_result(plain, pool.run(plain, _ripple_tasks(
+            plain, op.current_peak_A, rated.current_angle, pool.workers), say))
     return {"rated": rated, "point": points[0], "ripple": ripple, "angle_studies": studies,
-            "curves": curves}
+            "curves": curves, "unskewed": unskewed}
 
 
 def evaluate(
@@ -302,11 +328,12 @@ def evaluate(
             angle = math.pi / 4 if op.current_angle is None else op.current_angle
             rated, points = averaged_points(model, op.current_peak_A, angle)
             parts = {"rated": rated, "point": points[0], "ripple": None, "angle_studies": [],
-                     "curves": None}
+                     "curves": None, "unskewed": None}
         else:
             parts = _full_studies(model, settings, op.current_angle, pool, say)
     timings["studies"] = time.perf_counter() - start - sum(timings.values())
     parts.update(spec=spec, model=model)
     summary = _summary(parts, settings, time.perf_counter() - start)
     return Evaluation(spec, model, settings, summary, parts["rated"], parts["point"],
-                      parts["ripple"], parts["angle_studies"], parts["curves"], timings)
+                      parts["ripple"], parts["angle_studies"], parts["curves"], timings,
+                      parts["unskewed"])

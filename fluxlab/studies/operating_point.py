@@ -29,7 +29,7 @@ from fluxlab.fem.solver import FieldSolution, solve_field
 from fluxlab.machine.dq import dq_torque, power_factor
 from fluxlab.machine.model import MachineModel, current_density, phase_currents
 from fluxlab.machine.post import flux_linkage_abc, machine_energy, park, torque_maxwell
-from fluxlab.studies.averaging import averaging_steps
+from fluxlab.studies.averaging import averaging_steps, skew_step_offsets
 
 log = logging.getLogger(__name__)
 
@@ -49,7 +49,12 @@ __all__ = [
 
 @dataclass(frozen=True, eq=False)
 class PointResult:
-    """One solved operating point at one rotor step (whole machine, SI units)."""
+    """One solved operating point at one rotor step (whole machine, SI units).
+
+    A skewed rotor (``spec.skew``) is solved slice by slice: ``slices`` holds every slice's
+    field, the figures are slice means and ``solution`` is the slice nearest the middle of
+    the stack (for the field figure and the flux densities).
+    """
 
     current_peak_A: float
     current_angle: float
@@ -64,6 +69,13 @@ class PointResult:
     coenergy_J: float
     iterations: int
     solution: FieldSolution
+    slices: tuple[FieldSolution, ...] = ()
+
+    @property
+    def start(self):
+        """What the next solve of this rotor step starts from (``initial`` of
+        :func:`solve_point`): the field, or the slices' fields of a skewed rotor."""
+        return tuple(s.a for s in self.slices) if self.slices else self.solution.a
 
 
 def solve_point(
@@ -71,22 +83,31 @@ def solve_point(
     current_peak: float,
     current_angle: float,
     step: int,
-    initial: np.ndarray | None = None,
+    initial=None,
 ) -> PointResult:
     """Solve one operating point at rotor step ``step``.
 
-    Rotor steps: see :func:`fluxlab.machine.model.rotor_step`.
-
-    The phase currents follow the rotor: the dq current is fixed in the rotor frame.
+    Rotor steps: see :func:`fluxlab.machine.model.rotor_step`. The phase currents follow
+    the rotor: the dq current is fixed in the rotor frame. A skewed rotor is solved as its
+    slices, each at its own rotor offset with the same stator currents (so each slice sees
+    its own current angle); flux linkages (phase quantities, then Park at this step),
+    torque and co-energy are slice means. ``initial``: a start vector, or one per slice
+    (:attr:`PointResult.start` of an earlier point).
     """
     p = model.spec.pole_pairs
     position = (step - model.axis_step) * model.step_angle
     theta_e = p * position
     i_abc = phase_currents(current_peak, current_angle, theta_e)
-    solution = solve_field(model.problem, current_density(model, i_abc), step, initial=initial,
-                           rtol=model.newton_rtol, linear_solver=model.linear_solver)
-    psi_d, psi_q = park(flux_linkage_abc(model, solution), theta_e)
+    density = current_density(model, i_abc)
+    offsets = skew_step_offsets(model)
+    starts = initial if isinstance(initial, tuple) else (initial,) * len(offsets)
+    solutions = [solve_field(model.problem, density, step + off, initial=start,
+                             rtol=model.newton_rtol, linear_solver=model.linear_solver)
+                 for off, start in zip(offsets, starts)]
+    psi_abc = np.mean([flux_linkage_abc(model, sol) for sol in solutions], axis=0)
+    psi_d, psi_q = park(psi_abc, theta_e)
     i_d, i_q = current_peak * math.cos(current_angle), current_peak * math.sin(current_angle)
+    middle = min(range(len(offsets)), key=lambda k: abs(offsets[k]))
     return PointResult(
         current_peak_A=current_peak,
         current_angle=current_angle,
@@ -96,11 +117,12 @@ def solve_point(
         i_q=i_q,
         psi_d=psi_d,
         psi_q=psi_q,
-        torque_maxwell_Nm=torque_maxwell(model, solution),
+        torque_maxwell_Nm=float(np.mean([torque_maxwell(model, sol) for sol in solutions])),
         torque_dq_Nm=dq_torque(p, psi_d, psi_q, i_d, i_q),
-        coenergy_J=machine_energy(model, solution)[1],
-        iterations=solution.iterations,
-        solution=solution,
+        coenergy_J=float(np.mean([machine_energy(model, sol)[1] for sol in solutions])),
+        iterations=sum(sol.iterations for sol in solutions),
+        solution=solutions[middle],
+        slices=tuple(solutions) if len(solutions) > 1 else (),
     )
 
 
@@ -153,9 +175,9 @@ def averaged_points(model, current_peak: float, current_angle: float,
     points: list[PointResult] = []
     for step in (int(s) for s in steps):
         # a step not solved before starts from the position before it at this current
-        start = starts.get(step, points[-1].solution.a if points else None)
+        start = starts.get(step, points[-1].start if points else None)
         pt = solve_point(model, current_peak, current_angle, step, start)
-        starts[step] = pt.solution.a
+        starts[step] = pt.start
         points.append(pt)
     return point_mean(model, points), points
 

@@ -20,10 +20,18 @@ def _axes(ax):
     return ax
 
 
-def plot_torque_vs_position(result: TorqueVsPosition, ax=None):
-    """Torque (Maxwell stress and dq) over one torque period; mean and ripple noted."""
+def plot_torque_vs_position(result: TorqueVsPosition, ax=None,
+                            unskewed: TorqueVsPosition | None = None):
+    """Torque (Maxwell stress and dq) over one torque period; mean and ripple noted.
+
+    ``unskewed``: the same rotor without its skew, drawn in grey for comparison.
+    """
     ax = _axes(ax)
     x = np.append(result.position_deg, result.position_deg[-1] + _step_deg(result))
+    if unskewed is not None:
+        xu = np.append(unskewed.position_deg, unskewed.position_deg[-1] + _step_deg(unskewed))
+        ax.plot(xu, np.append(unskewed.torque_Nm, unskewed.torque_Nm[0]), "-", color="0.6",
+                lw=1.0, label=f"without skew ({unskewed.ripple_pct:.0f} % p-p)")
     ax.plot(x, np.append(result.torque_Nm, result.torque_Nm[0]), "o-", ms=3,
             label="air-gap Maxwell stress")
     ax.plot(x, np.append(result.torque_dq_Nm, result.torque_dq_Nm[0]), "--", lw=1.2,
