@@ -76,7 +76,8 @@ def _write_field_and_winding(evaluation, out: Path) -> list[Path]:
     plot_field(evaluation.model, evaluation.rated_point.solution, ax=ax)
     s = evaluation.summary
     ax.set_title(f"Field at the rated point: {s['current_peak_A']:g} A peak, "
-                 f"γ = {s['current_angle_deg']:.1f} deg, rotor position 0", fontsize=10)
+                 f"γ = {s['current_angle_deg']:.1f} deg, rotor position 0"
+                 + (", the slice nearest mid-stack" if s.get("skew") else ""), fontsize=10)
     fig.tight_layout()
     written = save_figure(fig, out, "field_rated", dpi=170)
     fig, ax = plt.subplots(figsize=(11, 3.2))

@@ -133,7 +133,8 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
             plot(data, ax=fig.add_subplot(cell), **extra).set_title(title)
     if field_solution is not None:
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
-            "Field at the rated point, position 0")
+            "Field at the rated point, position 0"
+            + (" (mid-stack slice)" if summary.get("skew") else ""))
     for a in fig.axes:
         a.title.set_fontsize(9)
         a.tick_params(labelsize=7)
