@@ -100,7 +100,7 @@ def _ripple_page(pdf, evaluation: Evaluation) -> None:
 
     spec = evaluation.spec
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(2, 2, left=0.07, right=0.96, top=0.9, bottom=0.12, wspace=0.22,
+    grid = fig.add_gridspec(2, 2, left=0.07, right=0.96, top=0.9, bottom=0.15, wspace=0.22,
                             hspace=0.42)
     fig.suptitle(f"Torque ripple: {spec.name}", fontsize=14, x=0.07, ha="left")
     plot_torque_vs_position(evaluation.torque_vs_position, ax=fig.add_subplot(grid[0, 0]),
