@@ -49,10 +49,10 @@ def main() -> None:
     wall = time.perf_counter() - start
     model = evaluation.model
     t_mesh, t_model, t_studies = (evaluation.timings_s[k] for k in ("mesh", "model", "studies"))
-    solves = iterations = 0
-    ripple = evaluation.torque_vs_position
-    solves += len(ripple.iterations)
-    iterations += int(np.sum(ripple.iterations))
+    ripples = [r for r in (evaluation.torque_vs_position, evaluation.torque_vs_position_overload)
+               if r is not None]
+    solves = sum(len(r.iterations) for r in ripples)
+    iterations = int(sum(np.sum(r.iterations) for r in ripples))
     angle_solves = sum(len(s.points) * s.positions for s in evaluation.torque_vs_angle)
     inductance_solves = 2 * len(evaluation.inductances.current_peak_A) * \
         evaluation.inductances.positions
@@ -63,8 +63,8 @@ def main() -> None:
     print(f"workers: {args.workers}")
     print(f"meshing            {t_mesh:7.2f} s")
     print(f"model set-up       {t_model:7.2f} s")
-    print(f"studies            {t_studies:7.2f} s  ({solves} ripple solves, {iterations} Newton "
-          f"steps; {angle_solves} current-angle and {inductance_solves} inductance solves)")
+    print(f"studies            {t_studies:7.2f} s  ({solves} ripple solves at rated and overload, "
+          f"{iterations} Newton steps; {angle_solves} current-angle and {inductance_solves} inductance solves)")
     print(f"tables, figures, review.pdf {t_write:7.2f} s")
     print(f"peak resident memory {_peak_rss_mib():.0f} MiB (largest of this process and a worker)")
     print("summary: " + ", ".join(f"{k} {s[k]:.6g}" for k in (

@@ -12,6 +12,7 @@ import math
 import numpy as np
 import pytest
 from meshes_closed_form import centroids, sector_machine_mesh
+from scipy import sparse
 from scipy.sparse.linalg import spsolve
 
 from fluxlab.errors import ConvergenceError, SpecError
@@ -94,6 +95,29 @@ def test_backend_against_dense_solve(saturated, name):
             got = backend(matrix)(rhs)
             err = np.linalg.norm(got - expected) / np.linalg.norm(expected)
             assert err < LINEAR_RTOL, (name, k, err)
+
+
+@needs_pardiso
+@pytest.mark.parametrize("ordering", [0, 2])
+def test_pardiso_orderings_against_dense_solve(saturated, ordering):
+    """Minimum degree (small systems) and METIS (large) give the same solutions."""
+    problem, J = saturated
+    backend = linsolve.PardisoSolver(ordering=ordering)
+    (pattern,), values = _jacobians(problem, J, [4])
+    matrix = pattern.matrix(values[0])
+    rhs = np.random.default_rng(5).standard_normal(matrix.shape[0])
+    expected = np.linalg.solve(matrix.toarray(), rhs)
+    err = np.linalg.norm(backend(matrix)(rhs) - expected) / np.linalg.norm(expected)
+    assert err < LINEAR_RTOL
+
+
+@needs_pardiso
+def test_pardiso_ordering_by_size():
+    backend = linsolve.PardisoSolver()
+    small = sparse.identity(linsolve.METIS_FROM_UNKNOWNS - 1, format="csr")
+    large = sparse.identity(linsolve.METIS_FROM_UNKNOWNS, format="csr")
+    assert (backend.ordering_for(small), backend.ordering_for(large)) == (0, 2)
+    assert linsolve.PardisoSolver(ordering=2).ordering_for(small) == 2
 
 
 def test_scipy_solve_stays_valid_after_refactorisation(saturated):

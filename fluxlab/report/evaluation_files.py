@@ -23,7 +23,7 @@ from fluxlab.report.tables import evaluation_tables, table_comment, write_csv
 from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.plausibility import point_warnings
 
-__all__ = ["write_evaluation", "evaluation_warnings", "harmonic_studies"]
+__all__ = ["write_evaluation", "evaluation_warnings"]
 
 
 def evaluation_warnings(evaluation) -> list[str]:
@@ -49,13 +49,6 @@ def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
     return written
 
 
-def harmonic_studies(evaluation) -> dict:
-    """The ripple studies of an evaluation by label, for the harmonic chart."""
-    found = {"rated": evaluation.torque_vs_position,
-             "overload MTPA": evaluation.torque_vs_position_overload}
-    return {label: study for label, study in found.items() if study is not None}
-
-
 def _write_curves(evaluation, out: Path) -> list[Path]:
     """The torque and inductance curves, and the torque harmonics."""
     import matplotlib.pyplot as plt
@@ -65,7 +58,7 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
         ("torque_vs_position", evaluation.torque_vs_position,
          partial(position, unskewed=evaluation.torque_vs_position_unskewed)),
         ("torque_vs_position_overload", evaluation.torque_vs_position_overload, position),
-        ("torque_harmonics", harmonic_studies(evaluation) or None,
+        ("torque_harmonics", evaluation.ripple_studies() or None,
          partial(plot_torque_harmonics, slot_order=slot_order_electrical(
              evaluation.spec.stator.slots, evaluation.spec.pole_pairs))),
         ("torque_vs_current_angle", evaluation.torque_vs_angle or None, plot_torque_vs_angle),

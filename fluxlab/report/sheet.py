@@ -94,6 +94,16 @@ def _table(ax, rows) -> None:
     table.scale(1.12, 1.0)
 
 
+def _finish_page(fig, left: float) -> None:
+    """The sheet's font sizes on every axes, and the caution at the foot of the page."""
+    for a in fig.axes:
+        a.title.set_fontsize(9)
+        a.tick_params(labelsize=7)
+        a.xaxis.label.set_fontsize(8)
+        a.yaxis.label.set_fontsize(8)
+    fig.text(left, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
+
+
 def _ripple_page(pdf, evaluation: Evaluation) -> None:
     """The torque ripple: position curves at rated and at the overload MTPA, harmonics."""
     import matplotlib.pyplot as plt
@@ -108,16 +118,10 @@ def _ripple_page(pdf, evaluation: Evaluation) -> None:
     overload = evaluation.torque_vs_position_overload
     if overload is not None:
         plot_torque_vs_position(overload, ax=fig.add_subplot(grid[0, 1]))
-    studies = {"rated": evaluation.torque_vs_position, "overload MTPA": overload}
-    plot_torque_harmonics({k: v for k, v in studies.items() if v is not None},
+    plot_torque_harmonics(evaluation.ripple_studies(),
                           slot_order_electrical(spec.stator.slots, spec.pole_pairs),
                           ax=fig.add_subplot(grid[1, :]))
-    for a in fig.axes:
-        a.title.set_fontsize(9)
-        a.tick_params(labelsize=7)
-        a.xaxis.label.set_fontsize(8)
-        a.yaxis.label.set_fontsize(8)
-    fig.text(0.07, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
+    _finish_page(fig, 0.07)
     pdf.savefig(fig)
     plt.close(fig)
 
@@ -168,12 +172,7 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
             "Field at the rated point, position 0"
             + (" (mid-stack slice)" if summary.get("skew") else ""))
-    for a in fig.axes:
-        a.title.set_fontsize(9)
-        a.tick_params(labelsize=7)
-        a.xaxis.label.set_fontsize(8)
-        a.yaxis.label.set_fontsize(8)
-    fig.text(0.05, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
+    _finish_page(fig, 0.05)
     with PdfPages(path) as pdf:
         pdf.savefig(fig)
         plt.close(fig)

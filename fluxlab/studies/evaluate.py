@@ -38,7 +38,7 @@ from fluxlab.studies.curves import (
     join_inductance_curves,
     position_study,
     ripple_steps,
-    solve_positions,
+    solve_position_sets,
     torque_vs_current_angle,
 )
 from fluxlab.studies.flux_density import region_flux_densities
@@ -114,6 +114,12 @@ class Evaluation:
     timings_s: dict = field(default_factory=dict)
     torque_vs_position_unskewed: TorqueVsPosition | None = None
     torque_vs_position_overload: TorqueVsPosition | None = None
+
+    def ripple_studies(self) -> dict[str, TorqueVsPosition]:
+        """The torque-versus-position studies by label (``rated``, ``overload MTPA``)."""
+        found = {"rated": self.torque_vs_position,
+                 "overload MTPA": self.torque_vs_position_overload}
+        return {label: study for label, study in found.items() if study is not None}
 
     def operating_points(self) -> OperatingPoints:
         """The rated point and the MTPA per current that the envelope reports as well."""
@@ -220,21 +226,25 @@ _ANGLE = "torque vs current angle"
 _INDUCTANCE = "inductance curve"
 
 
-def _ripple_tasks(model, current, angle, pieces: int, label: str = "rated") -> list:
-    """The ripple study at ``label``'s current as ``pieces`` chains of neighbouring positions,
-    one task each: short tasks keep both cores busy to the end (a piece costs one cold start
-    more)."""
+def _ripple_tasks(model, currents: dict[str, tuple[float, float]], pieces: int) -> list:
+    """The ripple studies at ``currents`` (label -> (peak A, angle rad)) as ``pieces`` chains
+    of neighbouring positions, one task each, every chain solving all the currents at each
+    of its steps (:func:`fluxlab.studies.curves.solve_position_sets`): short tasks keep both
+    cores busy to the end (a piece costs one cold start more)."""
     chains = [c for c in np.array_split(ripple_steps(model), pieces) if c.size]
-    return [(f"{_RIPPLE}, {label}, part {k + 1}/{len(chains)}", solve_positions,
-             (current, angle, c)) for k, c in enumerate(chains)]
+    return [(f"{_RIPPLE} ({', '.join(currents)}), part {k + 1}/{len(chains)}",
+             solve_position_sets, (tuple(currents.values()), c)) for k, c in enumerate(chains)]
 
 
-def _ripple_result(model, done: dict, label: str = "rated"
-                   ) -> tuple[TorqueVsPosition, list[PointResult]]:
-    """The ripple study from its finished chains (:func:`_ripple_tasks`), in step order."""
-    points = sorted((pt for name, chain in done.items() if name.startswith(f"{_RIPPLE}, {label},")
-                     for pt in chain), key=lambda pt: pt.step)
-    return position_study(model, points), points
+def _ripple_results(model, done: dict, labels: list[str]) -> dict:
+    """Each current's ripple study (label -> (TorqueVsPosition, points in step order)) from
+    the finished chains of :func:`_ripple_tasks`."""
+    chains = [sets for name, sets in done.items() if name.startswith(_RIPPLE)]
+    out = {}
+    for k, label in enumerate(labels):
+        points = sorted((pt for sets in chains for pt in sets[k]), key=lambda pt: pt.step)
+        out[label] = (position_study(model, points), points)
+    return out
 
 
 def _inductance_currents(spec: MachineSpec, settings: StudySettings) -> np.ndarray:
@@ -248,10 +258,10 @@ def _inductance_currents(spec: MachineSpec, settings: StudySettings) -> np.ndarr
     return np.array(sorted({*span.round(9).tolist(), *wanted}))
 
 
-def _full_tasks(model, settings, angle, workers: int) -> list:
+def _full_tasks(model, settings, angle) -> list:
     """The independent studies, the longest first: the current-angle studies (without their
-    0 and 90 deg ends, which the saturation curves solve), the two saturation curves, the
-    ripple chains (short, they fill the end). The rated angle joins the rated grid."""
+    0 and 90 deg ends, which the saturation curves solve), the two saturation curves. The
+    rated angle joins the rated grid."""
     op = model.spec.operating
     tasks = []
     for label, current in (("overload", op.overload_current_peak_A),
@@ -264,8 +274,6 @@ def _full_tasks(model, settings, angle, workers: int) -> list:
     for axis in ("d", "q"):
         tasks.append((f"{_INDUCTANCE}, {axis}-axis", inductance_curves,
                       (currents, None, None, (axis,))))
-    if angle is not None:
-        tasks += _ripple_tasks(model, op.current_peak_A, angle, 2 * workers if workers > 1 else 1)
     return tasks
 
 
@@ -273,31 +281,30 @@ def _full_studies(model, settings, angle, pool, say) -> dict:
     """Run the full studies in ``pool``; the parts of the evaluation."""
     op = model.spec.operating
     say(f"running the studies in {pool.workers} process(es)")
-    done = pool.run(model, _full_tasks(model, settings, angle, pool.workers), say)
+    done = pool.run(model, _full_tasks(model, settings, angle), say)
     curves = join_inductance_curves(done[f"{_INDUCTANCE}, d-axis"],
                                     done[f"{_INDUCTANCE}, q-axis"])
     studies = [study.with_points(curves.ends_at(study.current_peak_A))
                for study in (done.get(f"{_ANGLE}, {k}") for k in ("rated", "overload"))
                if study is not None]
     rated = studies[0].mtpa if angle is None else studies[0].at(math.degrees(angle))
-    # the ripple studies that wait for an MTPA angle share one batch
-    later = _ripple_tasks(model, op.current_peak_A, rated.current_angle, pool.workers) \
-        if angle is None else []
+    # the ripple studies wait for their MTPA angles and run together, step by step
+    currents = {"rated": (op.current_peak_A, rated.current_angle)}
     if len(studies) > 1:
-        later += _ripple_tasks(model, op.overload_current_peak_A, studies[1].mtpa.current_angle,
-                               pool.workers, "overload")
-    if later:
-        done.update(pool.run(model, later, say))
-    ripple, points = _ripple_result(model, done)
-    overload = _ripple_result(model, done, "overload")[0] if len(studies) > 1 else None
+        currents["overload"] = (op.overload_current_peak_A, studies[1].mtpa.current_angle)
+    done.update(pool.run(model, _ripple_tasks(model, currents, pool.workers), say))
+    ripples = _ripple_results(model, done, list(currents))
+    ripple, points = ripples["rated"]
+    overload = ripples["overload"][0] if "overload" in ripples else None
     unskewed = None
     if model.spec.skew is not None:  # the same rotor straight, for the comparison
         plain = dataclasses.replace(build_model(without_skew(model.spec), model.mesh,
                                                 model.linear_solver),
                                     newton_rtol=model.newton_rtol)
         say("torque vs position without skew, for comparison")
-        unskewed, _ = _ripple_result(plain, pool.run(plain, _ripple_tasks(
-            plain, op.current_peak_A, rated.current_angle, pool.workers), say))
+        plain_done = pool.run(plain, _ripple_tasks(plain, {"rated": currents["rated"]},
+                                                   pool.workers), say)
+        unskewed = _ripple_results(plain, plain_done, ["rated"])["rated"][0]
     return {"rated": rated, "point": points[0], "ripple": ripple, "angle_studies": studies,
             "curves": curves, "unskewed": unskewed, "overload_ripple": overload}
 
