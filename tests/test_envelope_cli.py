@@ -54,7 +54,7 @@ def _synthetic_result():
     point = AveragedPoint(current, gamma, i_d, i_q, psi_d, psi_q, torque, torque,
                           power_factor(psi_d, psi_q, i_d, i_q), 1, 0)
     operating = OperatingPoints(point, {current: point})
-    rated = _rated_point(spec, point, res, iron)
+    rated = _rated_point(spec, point, iron)
     summary = _summary(s, env, res, rated, ribs, fmap, operating)
     return EnvelopeResult(spec, s, fmap, mtpa_trajectory(fmap), res, env, iron, rated, ribs,
                           operating, summary)

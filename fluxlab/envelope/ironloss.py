@@ -37,7 +37,6 @@ __all__ = [
     "flux_density_waveforms",
     "iron_regions",
     "iron_loss_estimate",
-    "copper_loss",
     "efficiency",
 ]
 
@@ -240,11 +239,6 @@ def iron_loss_estimate(model, current_peak: float, current_angle: float, speed_r
     losses = region_losses(b, regions, areas, model.scale, frequency)
     return IronLoss(losses, float(speed_rpm), frequency, float(current_peak),
                     math.degrees(current_angle), b.shape[0])
-
-
-def copper_loss(resistance_Ohm: float, current_peak_A: float) -> float:
-    """Copper loss of the three phases, W: 3/2 R I^2 with I the peak phase current."""
-    return 1.5 * resistance_Ohm * current_peak_A**2
 
 
 def efficiency(power_W: float, copper_W: float, iron_W: float) -> float:

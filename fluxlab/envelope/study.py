@@ -12,12 +12,14 @@ import numpy as np
 
 from fluxlab.envelope.drive import Envelope, phase_voltage_limit, torque_speed_envelope
 from fluxlab.envelope.fluxmap import FluxMap, current_grid, flux_map
-from fluxlab.envelope.ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
+from fluxlab.envelope.ironloss import IronLoss, efficiency, iron_loss_estimate
 from fluxlab.envelope.mtpa import MTPATrajectory, mtpa_trajectory, with_engine_points
-from fluxlab.envelope.resistance import PhaseResistance, phase_resistance
 from fluxlab.envelope.ribstress import RibStress, rib_stress
 from fluxlab.errors import MaterialError
+from fluxlab.machine.end_winding import end_winding_leakage
 from fluxlab.machine.model import build_model
+from fluxlab.machine.resistance import PhaseResistance, phase_resistance
+from fluxlab.machine.terminal import terminal_figures
 from fluxlab.spec.types import MachineSpec
 from fluxlab.studies.averaging import averaging_positions
 from fluxlab.studies.curves import ANGLE_STEP_DEG, torque_vs_current_angle
@@ -135,15 +137,20 @@ def operating_points(model, currents: list[float], workers: int = 1,
     return OperatingPoints(rated, {c: s.mtpa for c, s in studies.items()})
 
 
-def _rated_point(spec, rated: AveragedPoint, res, iron) -> dict:
-    speed = spec.operating.speed_rpm
-    power = rated.torque_Nm * speed * 2 * math.pi / 60
-    cu = copper_loss(res.resistance_Ohm, rated.current_peak_A)
+def _rated_point(spec, rated: AveragedPoint, iron) -> dict:
+    """The rated point at the rated speed: terminal figures (end leakage included), losses."""
+    terminal = terminal_figures(spec, rated.psi_d, rated.psi_q, rated.i_d, rated.i_q,
+                                rated.torque_Nm, spec.operating.speed_rpm)
     fe = iron.total_W if iron is not None else math.nan
+    cu = terminal["copper_loss_W"]
     return {"current_peak_A": rated.current_peak_A, "current_angle_deg": rated.current_angle_deg,
-            "speed_rpm": speed, "torque_Nm": rated.torque_Nm, "power_W": power,
-            "copper_loss_W": cu, "iron_loss_W": fe, "efficiency": efficiency(power, cu, fe),
-            "power_factor": rated.power_factor}
+            "speed_rpm": terminal["speed_rpm"], "torque_Nm": rated.torque_Nm,
+            "power_W": terminal["power_W"], "copper_loss_W": cu, "iron_loss_W": fe,
+            "efficiency": efficiency(terminal["power_W"], cu, fe),
+            "power_factor": terminal["power_factor"],
+            "power_factor_2d": terminal["power_factor_2d"],
+            "terminal_voltage_peak_V": terminal["terminal_voltage_peak_V"],
+            "copper_mass_kg": terminal["copper_mass_kg"]}
 
 
 def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, *,
@@ -177,8 +184,9 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
                                                                 21)), operating.mtpa)
     res = phase_resistance(spec)
     speeds = np.linspace(0.0, settings.max_speed_rpm, settings.speed_points)
+    leakage = end_winding_leakage(spec)
     env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_peak_A,
-                                settings.voltage_limit_peak_V, speeds)
+                                settings.voltage_limit_peak_V, speeds, leakage.inductance_H)
     rated = operating.rated
     iron = None
     if settings.loss_samples:
@@ -191,7 +199,7 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
             log.warning("iron loss skipped: %s", err)
     timings["iron_loss"] = time.perf_counter() - start - sum(timings.values())
     ribs = rib_stress(spec, settings.max_speed_rpm, settings.rib_safety_factor)
-    rated_point = _rated_point(spec, rated, res, iron)
+    rated_point = _rated_point(spec, rated, iron)
     summary = _summary(settings, env, res, rated_point, ribs, fmap, operating)
     return EnvelopeResult(spec, settings, fmap, mtpa, res, env, iron, rated_point, ribs,
                           operating, summary, timings)
@@ -212,6 +220,7 @@ def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) 
         "phase_resistance_Ohm": res.resistance_Ohm,
         "copper_temperature_C": res.temperature_C,
         "end_winding_length_m": res.end_winding_length_m,
+        "end_leakage_H": env.end_leakage_H,
         "rated": rated,
         "mtpa": [{"current_peak_A": c, "current_angle_deg": pt.current_angle_deg,
                   "torque_Nm": pt.torque_Nm} for c, pt in sorted(operating.mtpa.items())],
@@ -225,5 +234,6 @@ def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) 
         "rib_stress_exceeded": ribs.exceeded,
         "rib_caution": ribs.caution,
         "conventions": "peak phase currents and voltages; amplitude-invariant Park "
-                       "transform; current angle from the d-axis; V_max = m V_dc / sqrt(3)",
+                       "transform; current angle from the d-axis; V_max = m V_dc / sqrt(3); "
+                       "voltages with the phase resistance and the end-winding leakage",
     }

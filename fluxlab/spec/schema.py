@@ -235,6 +235,9 @@ WINDING_KEYS = (
     Key("turns_per_coil", int, low=1, high=10_000),
     Key("parallel_paths", int, default=1, low=1),
     Key("fill_factor", float, default=0.45, low=0, low_open=True, high=0.8),
+    # the end-winding leakage inductance of a phase, replacing the estimate of
+    # fluxlab.machine.end_winding; 0 leaves it out
+    Key("end_leakage_mH", float, default=None, low=0, high=1e6),
 )
 ROTOR_KEYS = (
     Key("shaft_diameter_mm", float, scale=MM, low=0, low_open=True),

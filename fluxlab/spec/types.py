@@ -62,13 +62,18 @@ class StatorSpec:
 
 @dataclass(frozen=True)
 class WindingSpec:
-    """Distributed three-phase winding."""
+    """Distributed three-phase winding.
+
+    ``end_leakage_mH``: the end-winding leakage inductance of a phase, mH, as the file gives
+    it (None: estimated, see :mod:`fluxlab.machine.end_winding`).
+    """
 
     layers: int
     coil_pitch_slots: int
     turns_per_coil: int
     parallel_paths: int
     fill_factor: float
+    end_leakage_mH: float | None = None
 
 
 @dataclass(frozen=True)
