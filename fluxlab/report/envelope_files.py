@@ -71,7 +71,7 @@ def envelope_tables(result) -> dict[str, dict]:
                          "voltage_peak_V": e.voltage_peak_V, "power_factor": e.power_factor,
                          "region": np.array(e.region)},
         "rib_stress": {
-            "barrier": [b.barrier + 1 for b in result.ribs.barriers],
+            "barrier": [f"rotor.barriers[{b.barrier}]" for b in result.ribs.barriers],
             "island_mass_kg": [b.island_mass_kg for b in result.ribs.barriers],
             "centroid_radius_mm": [1e3 * b.centroid_radius_m for b in result.ribs.barriers],
             "force_N": [b.force_N for b in result.ribs.barriers],
