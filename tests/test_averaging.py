@@ -24,6 +24,7 @@ from fluxlab.studies.averaging import (
     periods_per_revolution,
     residual_orders,
     slot_order,
+    slot_order_electrical,
 )
 
 RATED_A, RATED_ANGLE_DEG = 25.0, 60.0
@@ -179,3 +180,16 @@ def test_one_axis_lq_matches_the_dense_mean(layout):
     curve = inductance_curves(layout.model, [RATED_A], axes=("q",))
     dense = averaged_point(layout.model, RATED_A, math.pi / 2, layout.reference_steps)
     assert curve.Lq_one_axis_H[0] == pytest.approx(dense.psi_q / RATED_A, rel=5e-3)
+
+
+@pytest.mark.parametrize("slots, poles, order", [
+    (36, 4, 18),  # integral slot, q = 3: 6 q
+    (54, 6, 18),  # q = 3
+    (24, 2, 24),  # q = 4
+    (48, 8, 12),  # q = 2
+    (30, 4, 30),  # q = 5/2: the pattern repeats lcm(30, 4) = 60 times a turn, 2 periods
+])
+def test_slot_order_per_electrical_period(slots, poles, order):
+    # integral slot: the slot harmonics of the torque are multiples of 6 q per electrical
+    # period (common practice, no source); in general lcm(Q, 2p) per turn over p periods
+    assert slot_order_electrical(slots, poles // 2) == order

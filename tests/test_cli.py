@@ -61,6 +61,31 @@ def test_solve_writes_field_and_json(coarse_machine, tmp_path):
     assert (tmp_path / "field.png").stat().st_size > 0
 
 
+def test_solve_ripple_at_any_current_and_angle(coarse_machine, tmp_path):
+    args = ["solve", str(coarse_machine), "--current-A", "40", "--current-angle-deg", "65",
+            "--ripple", "--out", str(tmp_path)]
+    assert main(args) == 0
+    record = json.loads((tmp_path / "solve.json").read_text())
+    table = np.genfromtxt(tmp_path / "torque_vs_position.csv", delimiter=",", names=True)
+    torque = table["torque_Nm"]
+    # 4 steps per slot pitch over the torque period of 3 slot pitches (36 slots, 4 poles)
+    assert len(torque) == record["ripple_positions"] == 12
+    assert record["torque_ripple_pct"] == pytest.approx(
+        100 * (torque.max() - torque.min()) / torque.mean(), rel=1e-6)
+    # the harmonics with their phases give the samples back (inverse of the series the
+    # file's first line states): theta_e = p * position
+    lines = (tmp_path / "torque_harmonics.csv").read_text().splitlines()
+    assert lines[0].startswith("# torque = mean + sum of amplitude_Nm * cos(")
+    h = np.genfromtxt(lines[1:], delimiter=",", names=True)
+    theta_e = 2 * np.radians(table["position_deg"])
+    rebuilt = torque.mean() + sum(
+        a * np.cos(k * theta_e + np.radians(phi))
+        for k, a, phi in zip(h["order_per_electrical_period"], h["amplitude_Nm"], h["phase_deg"]))
+    assert rebuilt == pytest.approx(torque, abs=1e-6 * torque.mean())
+    for name in ("torque_vs_position.png", "torque_harmonics.png", "field.png"):
+        assert (tmp_path / name).stat().st_size > 0
+
+
 @pytest.mark.slow  # a full (coarse) evaluation: about a minute
 def test_evaluate_writes_every_output(coarse_machine, tmp_path):
     args = ["evaluate", str(coarse_machine), "--out", str(tmp_path), "--angle-step-deg", "30",
@@ -90,10 +115,19 @@ def test_evaluate_writes_every_output(coarse_machine, tmp_path):
         assert (tmp_path / f"{name}.png").stat().st_size > 0
     for name in ("field_rated.png", "winding_layout.png", "review.pdf", "machine.toml"):
         assert (tmp_path / name).stat().st_size > 0
-    # --full: the envelope files and a second page of the review sheet
+    # ripple at the overload MTPA: its table recomputes the summary's peak to peak
+    overload = np.genfromtxt(tmp_path / "torque_vs_position_overload.csv", delimiter=",",
+                             names=True)["torque_Nm"]
+    assert summary["overload_torque_ripple_pct"] == pytest.approx(
+        100 * (overload.max() - overload.min()) / overload.mean(), rel=1e-6)
+    assert overload.mean() > 1.5 * summary["torque_maxwell_mean_Nm"]  # 50 A against 25 A
+    for name in ("torque_harmonics_overload.csv", "torque_harmonics.png",
+                 "torque_vs_position_overload.png"):
+        assert (tmp_path / name).stat().st_size > 0
+    # --full: the envelope files; the sheet's pages: key figures, ripple, envelope
     assert (tmp_path / "envelope").is_dir() and any((tmp_path / "envelope").glob("*.csv"))
     pages = re.findall(rb"/Type\s*/Page[^s]", (tmp_path / "review.pdf").read_bytes())
-    assert len(pages) == 2
+    assert len(pages) == 3
 
 
 def test_missing_file_is_a_clear_error(tmp_path, capsys):

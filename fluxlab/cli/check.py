@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import math
 
+from fluxlab.geometry import model_sector
 from fluxlab.geometry.barrier_ends import slot_pitch
 from fluxlab.geometry.rotor import opening_angles
-from fluxlab.machine.winding import machine_symmetry, winding_factor, winding_layout
+from fluxlab.machine.winding import winding_factor, winding_layout
 from fluxlab.spec.machine_file import load_machine
 from fluxlab.studies.averaging import averaging_positions, residual_orders, torque_period
 
@@ -63,7 +64,7 @@ def summary_lines(spec) -> list[str]:
     """A short human summary of a validated machine."""
 
     st, w, r = spec.stator, spec.winding, spec.rotor
-    sectors, sector_angle, sign = machine_symmetry(st.slots, spec.poles)
+    sectors, sector_angle, sign = model_sector(spec)
     layout = winding_layout(st.slots, spec.poles, w.layers, w.coil_pitch_slots)
     return [
         f"machine      {spec.name}: {spec.poles} poles, stack {spec.stack_length * 1e3:g} mm",
@@ -77,8 +78,9 @@ def summary_lines(spec) -> list[str]:
         *opening_lines(spec),
         *rotor_slot_lines(spec),
         "materials    " + ", ".join(f"{k} {m.name}" for k, m in spec.materials.items()),
-        f"model sector {math.degrees(sector_angle):g} deg ({sectors} sectors, "
-        f"{'anti-' if sign < 0 else ''}periodic edges)",
+        f"model sector {math.degrees(sector_angle):g} deg ("
+        + (f"{sectors} sectors, {'anti-' if sign < 0 else ''}periodic edges)" if sectors > 1
+           else "the whole machine)"),
         _averaging_line(spec),
         f"rated point  {spec.operating.current_peak_A:g} A peak"
         + (f" at {math.degrees(spec.operating.current_angle):g} deg from the d-axis"

@@ -2,6 +2,7 @@
 
 from fluxlab.geometry.checks import geometry_problems
 from fluxlab.geometry.sector import (
+    model_sector,
     poles_in_sector,
     rotor_regions,
     sliding_radius,
@@ -12,6 +13,7 @@ from fluxlab.geometry.sector import (
 
 __all__ = [
     "geometry_problems",
+    "model_sector",
     "poles_in_sector",
     "rotor_regions",
     "slot_region_name",

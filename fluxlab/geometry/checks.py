@@ -11,6 +11,7 @@ import math
 from fluxlab.errors import GeometryError
 from fluxlab.geometry.csg import disk, to_shapely
 from fluxlab.geometry.rotor import barrier_shape
+from fluxlab.geometry.sector import sector_pole_choices
 from fluxlab.geometry.stator import slot_outline
 from fluxlab.machine.winding import machine_symmetry
 from fluxlab.spec.types import MachineSpec
@@ -182,10 +183,21 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
     return problems
 
 
+def _sector_problems(spec: MachineSpec) -> list[str]:
+    asked = spec.mesh.sector_poles
+    choices = sector_pole_choices(spec.stator.slots, spec.poles)
+    if asked is None or asked in choices:
+        return []
+    return [f"mesh.sector_poles = {asked}: with stator.slots = {spec.stator.slots} and "
+            f"machine.poles = {spec.poles} the model sector can span "
+            f"{', '.join(map(str, choices))} poles (multiples of the smallest symmetric sector "
+            "that divide the machine)"]
+
+
 def geometry_problems(spec: MachineSpec) -> list[str]:
     """Every geometric problem of a machine, as messages naming key, value and limit."""
 
-    problems = _stator_problems(spec) + _barrier_problems(spec)
+    problems = _stator_problems(spec) + _barrier_problems(spec) + _sector_problems(spec)
     sectors, _, _ = machine_symmetry(spec.stator.slots, spec.poles)
     if sectors < 2:
         problems.append(

@@ -48,7 +48,10 @@ def polygon(points) -> Shape:
 
 
 def sector(r: float, start: float, end: float) -> Shape:
-    """Circular sector about the origin, radius ``r`` m, between angles ``start``..``end`` rad."""
+    """Circular sector about the origin, radius ``r`` m, between angles ``start``..``end`` rad;
+    a full turn (or more) is the disk, with no cut along a ray."""
+    if end - start >= 2 * math.pi * (1 - 1e-12):
+        return disk(0.0, 0.0, r)
     return Shape("sector", (float(r), float(start), float(end)))
 
 

@@ -12,9 +12,12 @@ import math
 from fluxlab.geometry.csg import Shape, annular_sector, cut, rotate
 from fluxlab.geometry.rotor import barrier_shape, post_shape
 from fluxlab.geometry.stator import slot_shapes
+from fluxlab.machine.winding import machine_symmetry
 from fluxlab.spec.types import MachineSpec
 
 __all__ = [
+    "model_sector",
+    "sector_pole_choices",
     "sliding_radius",
     "slots_in_sector",
     "poles_in_sector",
@@ -27,6 +30,31 @@ __all__ = [
 def sliding_radius(spec: MachineSpec) -> float:
     """Radius of the sliding circle, m: the middle of the air gap."""
     return spec.rotor_radius + spec.stator.airgap / 2
+
+
+def sector_pole_choices(slots: int, poles: int) -> list[int]:
+    """The pole counts a model sector may span: the smallest sector the symmetry allows
+    (:func:`fluxlab.machine.winding.machine_symmetry`) times every divisor of its count of
+    sectors, up to the whole machine (``poles``)."""
+    sectors, _, _ = machine_symmetry(slots, poles)
+    smallest = poles // sectors  # p/t or 2p/t poles, t = gcd(slots, p): a whole number
+    return [smallest * m for m in range(1, sectors + 1) if sectors % m == 0]
+
+
+def model_sector(spec: MachineSpec) -> tuple[int, float, int]:
+    """The modelled sector: (sectors in the machine, sector angle in rad, edge sign).
+
+    ``mesh.sector_poles`` poles when the file gives it, else the smallest sector of
+    :func:`fluxlab.machine.winding.machine_symmetry`. A sector made of m smallest sectors
+    carries edge_sign**m on its edges (a pair of anti-periodic sectors is periodic); the
+    whole machine (one sector of 2 pi) has no edges, and its sign is +1.
+    """
+    sectors, angle, sign = machine_symmetry(spec.stator.slots, spec.poles)
+    poles = spec.mesh.sector_poles
+    if poles is None or poles * sectors == spec.poles:
+        return sectors, angle, sign
+    m = round(poles * sectors / spec.poles)  # smallest sectors in the model (validated)
+    return sectors // m, angle * m, sign**m
 
 
 def slots_in_sector(spec: MachineSpec, sector_angle: float) -> int:

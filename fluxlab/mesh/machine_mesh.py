@@ -15,6 +15,7 @@ from skfem import MeshTri
 
 from fluxlab.errors import MeshError
 from fluxlab.geometry import (
+    model_sector,
     poles_in_sector,
     rotor_regions,
     sliding_radius,
@@ -104,20 +105,22 @@ class MachineMesh:
 
 
 def sliding_divisions(spec, sector_angle: float) -> int:
-    """Segments of the sliding circle in the sector.
+    """Segments of the sliding circle in a sector of ``sector_angle`` rad.
 
-    The segment is about 1.5 times the air-gap element size (so that the gap triangles are
-    well shaped) and the count is a multiple of ``steps_per_slot`` times the slots in the
-    sector, so that a study step of ``1/steps_per_slot`` slot pitch is a whole number of
-    segments, and of what every position count of the studies needs to be equally spaced
-    (:func:`fluxlab.studies.averaging.position_counts`).
+    On the smallest sector the symmetry allows, the segment is about 1.5 times the air-gap
+    element size (so that the gap triangles are well shaped) and the count is a multiple of
+    ``steps_per_slot`` times the slots in the sector, so that a study step of
+    ``1/steps_per_slot`` slot pitch is a whole number of segments, and of what every position
+    count of the studies needs to be equally spaced
+    (:func:`fluxlab.studies.averaging.position_counts`). A larger sector (``mesh.sector_poles``)
+    holds that count once per smallest sector, so every model size has the same rotor step.
     """
 
-    sectors = round(2 * math.pi / sector_angle)
-    unit = math.lcm(spec.mesh.steps_per_slot * slots_in_sector(spec, sector_angle),
+    sectors, smallest, _ = machine_symmetry(spec.stator.slots, spec.poles)
+    unit = math.lcm(spec.mesh.steps_per_slot * slots_in_sector(spec, smallest),
                     division_unit(spec, sectors, position_counts(spec)))
-    target = sliding_radius(spec) * sector_angle / (1.5 * airgap_element_size(spec))
-    return unit * max(1, int(np.ceil(target / unit)))
+    target = sliding_radius(spec) * smallest / (1.5 * airgap_element_size(spec))
+    return round(sector_angle / smallest) * unit * max(1, int(np.ceil(target / unit)))
 
 
 def airgap_element_size(spec) -> float:
@@ -178,7 +181,7 @@ def mesh_size_problems(spec, limit: int | None = None) -> list[str]:
     naming every key that enters the estimate, with its value, or none."""
 
     limit = element_limit(spec) if limit is None else limit
-    sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
+    sectors, sector_angle, _ = model_sector(spec)
     terms = estimated_elements(spec, sector_angle)
     total = sum(terms.values())
     if total <= limit:
@@ -275,12 +278,12 @@ def _check_elements(points: np.ndarray, triangles: np.ndarray) -> None:
 def build_mesh(spec) -> MachineMesh:
     """Mesh the modelled sector of a machine: rotor and stator parts apart.
 
-    The sector is the smallest the slot and pole numbers allow
-    (:func:`fluxlab.machine.winding.machine_symmetry`): one pole pitch with anti-periodic edges for
-    an integral-slot winding.
+    The sector is :func:`fluxlab.geometry.sector.model_sector`: by default the smallest the
+    slot and pole numbers allow (one pole pitch with anti-periodic edges for an
+    integral-slot winding), or ``mesh.sector_poles`` poles up to the whole machine.
     """
 
-    sectors, sector_angle, edge_sign = machine_symmetry(spec.stator.slots, spec.poles)
+    sectors, sector_angle, edge_sign = model_sector(spec)
     _check_size(spec)  # before gmsh: a runaway mesh cannot be interrupted
     n_div = sliding_divisions(spec, sector_angle)
     r_slide = sliding_radius(spec)
@@ -309,8 +312,9 @@ def build_mesh(spec) -> MachineMesh:
     boundaries = {"outer": _facet_indices(mesh, stator.lines["outer"] + offset)}
     for part, suffix, shift in ((rotor, "rotor", 0), (stator, "stator", offset)):
         boundaries[f"sliding_{suffix}"] = _facet_indices(mesh, part.lines["sliding"] + shift)
-        boundaries[f"edge_start_{suffix}"] = _facet_indices(mesh, part.lines["edge_start"] + shift)
-        boundaries[f"edge_end_{suffix}"] = _facet_indices(mesh, part.lines["edge_end"] + shift)
+        if sectors > 1:  # the whole machine has no sector edges
+            for edge in ("edge_start", "edge_end"):
+                boundaries[f"{edge}_{suffix}"] = _facet_indices(mesh, part.lines[edge] + shift)
     mesh = mesh.with_subdomains(subdomains).with_boundaries(boundaries)
     rotor_element = np.zeros(mesh.t.shape[1], dtype=bool)
     rotor_element[:n_rotor] = True

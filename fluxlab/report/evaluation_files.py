@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import shutil
+from functools import partial
 from pathlib import Path
 
 from fluxlab.report.envelope_files import write_envelope
@@ -11,16 +12,18 @@ from fluxlab.report.figures import CAUTION, save_figure
 from fluxlab.report.forked import run_jobs
 from fluxlab.report.plots.curves import (
     plot_inductances,
+    plot_torque_harmonics,
     plot_torque_vs_angle,
     plot_torque_vs_position,
 )
 from fluxlab.report.plots.field import plot_field
 from fluxlab.report.plots.winding import plot_winding_layout
 from fluxlab.report.sheet import write_review_sheet
-from fluxlab.report.tables import HARMONICS_CONVENTION, evaluation_tables, write_csv
+from fluxlab.report.tables import evaluation_tables, table_comment, write_csv
+from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.plausibility import point_warnings
 
-__all__ = ["write_evaluation", "evaluation_warnings"]
+__all__ = ["write_evaluation", "evaluation_warnings", "harmonic_studies"]
 
 
 def evaluation_warnings(evaluation) -> list[str]:
@@ -42,17 +45,29 @@ def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
         shutil.copyfile(machine_file, out / "machine.toml")
         written.append(out / "machine.toml")
     for stem, columns in evaluation_tables(evaluation).items():
-        comment = HARMONICS_CONVENTION if stem == "torque_harmonics" else None
-        written.append(write_csv(out / f"{stem}.csv", columns, comment))
+        written.append(write_csv(out / f"{stem}.csv", columns, table_comment(stem)))
     return written
 
 
+def harmonic_studies(evaluation) -> dict:
+    """The ripple studies of an evaluation by label, for the harmonic chart."""
+    found = {"rated": evaluation.torque_vs_position,
+             "overload MTPA": evaluation.torque_vs_position_overload}
+    return {label: study for label, study in found.items() if study is not None}
+
+
 def _write_curves(evaluation, out: Path) -> list[Path]:
-    """The torque and inductance curves."""
+    """The torque and inductance curves, and the torque harmonics."""
     import matplotlib.pyplot as plt
 
+    position = plot_torque_vs_position
     plots = [
-        ("torque_vs_position", evaluation.torque_vs_position, plot_torque_vs_position),
+        ("torque_vs_position", evaluation.torque_vs_position,
+         partial(position, unskewed=evaluation.torque_vs_position_unskewed)),
+        ("torque_vs_position_overload", evaluation.torque_vs_position_overload, position),
+        ("torque_harmonics", harmonic_studies(evaluation) or None,
+         partial(plot_torque_harmonics, slot_order=slot_order_electrical(
+             evaluation.spec.stator.slots, evaluation.spec.pole_pairs))),
         ("torque_vs_current_angle", evaluation.torque_vs_angle or None, plot_torque_vs_angle),
         ("inductance_vs_current", evaluation.inductances, plot_inductances),
     ]
@@ -60,9 +75,7 @@ def _write_curves(evaluation, out: Path) -> list[Path]:
     for stem, data, plot in plots:
         if data is not None:
             fig, ax = plt.subplots(figsize=(7, 4.3))
-            extra = ({"unskewed": evaluation.torque_vs_position_unskewed}
-                     if plot is plot_torque_vs_position else {})
-            plot(data, ax=ax, **extra)
+            plot(data, ax=ax)
             fig.tight_layout()
             written += save_figure(fig, out, stem, dpi=170)
     return written

@@ -1,5 +1,5 @@
-"""The files of a mesh and of a single solved point: mesh.vtu with its region names, and the
-JSON record of a solve (SI units, names with units)."""
+"""The files of a mesh and of a single solved point: mesh.vtu with its region names, the
+JSON record of a solve (SI units, names with units), and a torque-versus-position study."""
 
 from __future__ import annotations
 
@@ -8,9 +8,13 @@ import math
 from pathlib import Path
 
 from fluxlab.machine.dq import power_factor
+from fluxlab.report.figures import save_figure
+from fluxlab.report.plots.curves import plot_torque_harmonics, plot_torque_vs_position
+from fluxlab.report.tables import position_tables, table_comment, write_csv
+from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.plausibility import point_warnings
 
-__all__ = ["write_mesh", "point_record"]
+__all__ = ["write_mesh", "point_record", "write_position_study"]
 
 
 def write_mesh(machine_mesh, out: Path) -> list[Path]:
@@ -66,3 +70,21 @@ def point_record(model, point) -> dict:
         "currents": "peak phase amperes; angle from the d-axis",
         "warnings": point_warnings(model, point.current_peak_A, b_peak),
     }
+
+
+def write_position_study(study, spec, out: Path) -> list[Path]:
+    """torque_vs_position and torque_harmonics, as CSV tables and figures, of one
+    :class:`fluxlab.studies.curves.TorqueVsPosition` of machine ``spec``."""
+    import matplotlib.pyplot as plt
+
+    written = [write_csv(out / f"{stem}.csv", columns, table_comment(stem))
+               for stem, columns in position_tables(study).items()]
+    order = slot_order_electrical(spec.stator.slots, spec.pole_pairs)
+    for stem, draw in (("torque_vs_position", lambda ax: plot_torque_vs_position(study, ax)),
+                       ("torque_harmonics",
+                        lambda ax: plot_torque_harmonics({"this point": study}, order, ax))):
+        fig, ax = plt.subplots(figsize=(7, 4.3))
+        draw(ax)
+        fig.tight_layout()
+        written += save_figure(fig, out, stem, dpi=170)
+    return written

@@ -1,4 +1,5 @@
-"""The one-page review sheet of an evaluation (PDF), for a design review."""
+"""The review sheet of an evaluation (PDF), for a design review: the key figures and curves
+on page one, the torque ripple on page two, the envelope (when computed) after them."""
 
 from __future__ import annotations
 
@@ -9,11 +10,13 @@ from pathlib import Path
 from fluxlab.report.figures import caution_line
 from fluxlab.report.plots.curves import (
     plot_inductances,
+    plot_torque_harmonics,
     plot_torque_vs_angle,
     plot_torque_vs_position,
 )
 from fluxlab.report.plots.envelope import add_envelope_page
 from fluxlab.report.plots.field import plot_field, plot_outline
+from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.evaluate import Evaluation
 
 __all__ = ["key_figures", "write_review_sheet"]
@@ -50,6 +53,8 @@ def key_figures(summary: dict) -> list[tuple[str, str]]:
         rows.append((f"MTPA at {summary['overload_current_peak_A']:g} A (deg; N·m)",
                      f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}; "
                      f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
+        rows.append((f"torque ripple at {summary['overload_current_peak_A']:g} A MTPA (%)",
+                     _fmt(summary.get("overload_torque_ripple_pct"), 3)))
     if summary.get("skew"):
         rows.insert(9, ("without skew: torque (N·m); ripple (%)",
                         f"{_fmt(summary['torque_mean_unskewed_Nm'])}; "
@@ -87,6 +92,34 @@ def _table(ax, rows) -> None:
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
     table.scale(1.12, 1.0)
+
+
+def _ripple_page(pdf, evaluation: Evaluation) -> None:
+    """The torque ripple: position curves at rated and at the overload MTPA, harmonics."""
+    import matplotlib.pyplot as plt
+
+    spec = evaluation.spec
+    fig = plt.figure(figsize=(11.69, 8.27))
+    grid = fig.add_gridspec(2, 2, left=0.07, right=0.96, top=0.9, bottom=0.12, wspace=0.22,
+                            hspace=0.42)
+    fig.suptitle(f"Torque ripple: {spec.name}", fontsize=14, x=0.07, ha="left")
+    plot_torque_vs_position(evaluation.torque_vs_position, ax=fig.add_subplot(grid[0, 0]),
+                            unskewed=evaluation.torque_vs_position_unskewed)
+    overload = evaluation.torque_vs_position_overload
+    if overload is not None:
+        plot_torque_vs_position(overload, ax=fig.add_subplot(grid[0, 1]))
+    studies = {"rated": evaluation.torque_vs_position, "overload MTPA": overload}
+    plot_torque_harmonics({k: v for k, v in studies.items() if v is not None},
+                          slot_order_electrical(spec.stator.slots, spec.pole_pairs),
+                          ax=fig.add_subplot(grid[1, :]))
+    for a in fig.axes:
+        a.title.set_fontsize(9)
+        a.tick_params(labelsize=7)
+        a.xaxis.label.set_fontsize(8)
+        a.yaxis.label.set_fontsize(8)
+    fig.text(0.07, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
+    pdf.savefig(fig)
+    plt.close(fig)
 
 
 def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
@@ -144,6 +177,8 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     with PdfPages(path) as pdf:
         pdf.savefig(fig)
         plt.close(fig)
+        if evaluation.torque_vs_position is not None:
+            _ripple_page(pdf, evaluation)
         if envelope is not None:
             add_envelope_page(pdf, envelope)
     return path

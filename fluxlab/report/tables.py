@@ -8,13 +8,19 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["write_csv", "evaluation_tables", "HARMONICS_CONVENTION"]
+__all__ = ["write_csv", "evaluation_tables", "position_tables", "table_comment",
+           "HARMONICS_CONVENTION"]
 
 #: How torque_harmonics.csv is to be read.
 HARMONICS_CONVENTION = (
     "torque = mean + sum of amplitude_Nm * cos(order * theta_e + phase_deg), theta_e the "
     "electrical rotor position from position 0; order per electrical period; every order the "
     "samples resolve")
+
+
+def table_comment(stem: str) -> str | None:
+    """The convention line a table's file starts with, if any."""
+    return HARMONICS_CONVENTION if stem.startswith("torque_harmonics") else None
 
 
 def _cell(value, exact: bool) -> str:
@@ -65,25 +71,34 @@ def write_csv(path: str | Path, columns: Mapping[str, object], comment: str | No
     return path
 
 
-def evaluation_tables(evaluation) -> dict[str, dict[str, np.ndarray]]:
-    """Every curve of an :class:`fluxlab.studies.evaluate.Evaluation` as named tables (file stem ->
-    columns)."""
-    tables = {}
-    r = evaluation.torque_vs_position
-    if r is not None:
-        tables["torque_vs_position"] = {
+def position_tables(r, suffix: str = "") -> dict[str, dict[str, np.ndarray]]:
+    """A torque-versus-position study (:class:`fluxlab.studies.curves.TorqueVsPosition`) as
+    ``torque_vs_position`` and ``torque_harmonics`` tables, their stems ending in ``suffix``."""
+    return {
+        f"torque_vs_position{suffix}": {
             "position_deg": r.position_deg,
             "torque_Nm": r.torque_Nm,
             "torque_dq_Nm": r.torque_dq_Nm,
             "psi_d_Wb": r.psi_d_Wb,
             "psi_q_Wb": r.psi_q_Wb,
             "newton_iterations": r.iterations,
-        }
-        tables["torque_harmonics"] = {
+        },
+        f"torque_harmonics{suffix}": {
             "order_per_electrical_period": r.harmonic_orders,
             "amplitude_Nm": r.harmonic_amplitudes_Nm,
             "phase_deg": r.harmonic_phases_deg,
-        }
+        },
+    }
+
+
+def evaluation_tables(evaluation) -> dict[str, dict[str, np.ndarray]]:
+    """Every curve of an :class:`fluxlab.studies.evaluate.Evaluation` as named tables (file stem ->
+    columns); the ripple study at overload gets the stems' suffix ``_overload``."""
+    tables = {}
+    for study, suffix in ((evaluation.torque_vs_position, ""),
+                          (evaluation.torque_vs_position_overload, "_overload")):
+        if study is not None:
+            tables.update(position_tables(study, suffix))
     rows = [(s.current_peak_A, a, t, tm, pd, pq, pf) for s in evaluation.torque_vs_angle
             for a, t, tm, pd, pq, pf in zip(s.current_angle_deg, s.torque_Nm,
                                             s.torque_maxwell_Nm, s.psi_d_Wb, s.psi_q_Wb,

@@ -276,6 +276,8 @@ MESH_KEYS = (
     Key("averaging_positions", int, default=None, low=1, high=72),
     # the estimate of fluxlab.mesh.machine_mesh.estimated_elements a sector may reach
     Key("max_elements", int, default=MAX_ELEMENTS_DEFAULT, low=1000, high=MAX_ELEMENTS_HIGH),
+    # poles in the modelled sector; checked against the symmetry in fluxlab.spec.machine_file
+    Key("sector_poles", int, default=None, low=1, high=64),
 )
 OPERATING_KEYS = (
     Key("current_peak_A", float, low=0, low_open=True),

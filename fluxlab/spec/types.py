@@ -100,7 +100,8 @@ class MeshSpec:
     ``averaging_positions``: rotor positions over one torque period averaged for every
     position-averaged figure (None: the rule of
     :func:`fluxlab.studies.averaging.default_positions`); the sliding circle is divided so
-    that they are equally spaced.
+    that they are equally spaced. ``sector_poles``: poles in the modelled sector (None: the
+    smallest sector the symmetry allows; see :func:`fluxlab.geometry.sector.model_sector`).
     """
 
     size: float
@@ -110,6 +111,7 @@ class MeshSpec:
     element_order: int
     averaging_positions: int | None = None
     max_elements: int = MAX_ELEMENTS_DEFAULT
+    sector_poles: int | None = None
 
 
 @dataclass(frozen=True)

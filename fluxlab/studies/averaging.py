@@ -37,6 +37,7 @@ __all__ = [
     "periods_per_revolution",
     "torque_period",
     "slot_order",
+    "slot_order_electrical",
     "default_positions",
     "averaging_positions",
     "residual_orders",
@@ -68,6 +69,15 @@ def torque_period(slots: int, pole_pairs: int) -> float:
 def slot_order(slots: int, pole_pairs: int) -> int:
     """s: the order, within the torque period, of the slot-harmonic family's first member."""
     return math.lcm(slots, 2 * pole_pairs) // periods_per_revolution(slots, pole_pairs)
+
+
+def slot_order_electrical(slots: int, pole_pairs: int) -> int:
+    """The slot-harmonic order of the torque per electrical period, lcm(Q, 2p) / p.
+
+    The stator's slotting and the rotor's poles come back into the same relative place
+    lcm(Q, 2p) times per revolution, which holds p electrical periods: 18 for 36 slots and
+    4 poles, 6 q for any integral-slot winding (q slots per pole and phase)."""
+    return math.lcm(slots, 2 * pole_pairs) // pole_pairs
 
 
 def default_positions(slots: int, pole_pairs: int) -> int:

@@ -101,6 +101,8 @@ class Evaluation:
     solved field at rotor position zero (for the field figure and the flux densities).
     ``timings_s``: wall time in s of ``mesh`` (absent when a model was given), ``model``
     (assembly) and ``studies`` (the solves and their post-processing).
+    ``torque_vs_position_overload``: the ripple study at the overload current's MTPA angle
+    (None without an overload current, or in the rated-point mode).
     """
 
     spec: MachineSpec
@@ -114,6 +116,7 @@ class Evaluation:
     inductances: InductanceCurves | None
     timings_s: dict = field(default_factory=dict)
     torque_vs_position_unskewed: TorqueVsPosition | None = None
+    torque_vs_position_overload: TorqueVsPosition | None = None
 
     def operating_points(self) -> OperatingPoints:
         """The rated point and the MTPA per current that the envelope reports as well."""
@@ -182,6 +185,7 @@ def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) ->
         "overload_current_peak_A": spec.operating.overload_current_peak_A,
         "overload_mtpa_angle_deg": _get(overload, "mtpa_angle_deg"),
         "overload_mtpa_torque_Nm": _get(overload, "mtpa_torque_Nm"),
+        "overload_torque_ripple_pct": _get(evaluation_parts["overload_ripple"], "ripple_pct"),
         "mtpa_tolerance_deg": _get(rated_study, "mtpa_tolerance_deg"),
         "mtpa_solves": sum(s.mtpa_solves for s in studies) if studies else None,
         "averaging": {**averaging_note(spec),
@@ -220,17 +224,19 @@ _ANGLE = "torque vs current angle"
 _INDUCTANCE = "inductance curve"
 
 
-def _ripple_tasks(model, current, angle, pieces: int) -> list:
-    """The ripple study as ``pieces`` chains of neighbouring positions, one task each: short
-    tasks keep both cores busy to the end (a piece costs one cold start more)."""
+def _ripple_tasks(model, current, angle, pieces: int, label: str = "rated") -> list:
+    """The ripple study at ``label``'s current as ``pieces`` chains of neighbouring positions,
+    one task each: short tasks keep both cores busy to the end (a piece costs one cold start
+    more)."""
     chains = [c for c in np.array_split(ripple_steps(model), pieces) if c.size]
-    return [(f"{_RIPPLE}, part {k + 1}/{len(chains)}", solve_positions, (current, angle, c))
-            for k, c in enumerate(chains)]
+    return [(f"{_RIPPLE}, {label}, part {k + 1}/{len(chains)}", solve_positions,
+             (current, angle, c)) for k, c in enumerate(chains)]
 
 
-def _ripple_result(model, done: dict) -> tuple[TorqueVsPosition, list[PointResult]]:
+def _ripple_result(model, done: dict, label: str = "rated"
+                   ) -> tuple[TorqueVsPosition, list[PointResult]]:
     """The ripple study from its finished chains (:func:`_ripple_tasks`), in step order."""
-    points = sorted((pt for name, chain in done.items() if name.startswith(_RIPPLE)
+    points = sorted((pt for name, chain in done.items() if name.startswith(f"{_RIPPLE}, {label},")
                      for pt in chain), key=lambda pt: pt.step)
     return position_study(model, points), points
 
@@ -277,13 +283,17 @@ def _full_studies(model, settings, angle, pool, say) -> dict:
     studies = [study.with_points(curves.ends_at(study.current_peak_A))
                for study in (done.get(f"{_ANGLE}, {k}") for k in ("rated", "overload"))
                if study is not None]
-    if angle is None:
-        rated = studies[0].mtpa
-        done.update(pool.run(model, _ripple_tasks(model, op.current_peak_A, rated.current_angle,
-                                                  pool.workers), say))
-    else:
-        rated = studies[0].at(math.degrees(angle))
+    rated = studies[0].mtpa if angle is None else studies[0].at(math.degrees(angle))
+    # the ripple studies that wait for an MTPA angle share one batch
+    later = _ripple_tasks(model, op.current_peak_A, rated.current_angle, pool.workers) \
+        if angle is None else []
+    if len(studies) > 1:
+        later += _ripple_tasks(model, op.overload_current_peak_A, studies[1].mtpa.current_angle,
+                               pool.workers, "overload")
+    if later:
+        done.update(pool.run(model, later, say))
     ripple, points = _ripple_result(model, done)
+    overload = _ripple_result(model, done, "overload")[0] if len(studies) > 1 else None
     unskewed = None
     if model.spec.skew is not None:  # the same rotor straight, for the comparison
         plain = dataclasses.replace(build_model(without_skew(model.spec), model.mesh,
@@ -293,7 +303,7 @@ def _full_studies(model, settings, angle, pool, say) -> dict:
         unskewed, _ = _ripple_result(plain, pool.run(plain, _ripple_tasks(
             plain, op.current_peak_A, rated.current_angle, pool.workers), say))
     return {"rated": rated, "point": points[0], "ripple": ripple, "angle_studies": studies,
-            "curves": curves, "unskewed": unskewed}
+            "curves": curves, "unskewed": unskewed, "overload_ripple": overload}
 
 
 def evaluate(
@@ -332,7 +342,7 @@ def evaluate(
             angle = math.pi / 4 if op.current_angle is None else op.current_angle
             rated, points = averaged_points(model, op.current_peak_A, angle)
             parts = {"rated": rated, "point": points[0], "ripple": None, "angle_studies": [],
-                     "curves": None, "unskewed": None}
+                     "curves": None, "unskewed": None, "overload_ripple": None}
         else:
             parts = _full_studies(model, settings, op.current_angle, pool, say)
     timings["studies"] = time.perf_counter() - start - sum(timings.values())
@@ -340,4 +350,4 @@ def evaluate(
     summary = _summary(parts, settings, time.perf_counter() - start)
     return Evaluation(spec, model, settings, summary, parts["rated"], parts["point"],
                       parts["ripple"], parts["angle_studies"], parts["curves"], timings,
-                      parts["unskewed"])
+                      parts["unskewed"], parts["overload_ripple"])

@@ -6,7 +6,8 @@ import numpy as np
 
 from fluxlab.studies.curves import InductanceCurves, TorqueVsAngle, TorqueVsPosition
 
-__all__ = ["plot_torque_vs_position", "plot_torque_vs_angle", "plot_inductances"]
+__all__ = ["plot_torque_vs_position", "plot_torque_harmonics", "plot_torque_vs_angle",
+           "plot_inductances"]
 
 _NOTE = "peak phase current; angle from the d-axis (least reluctance)"
 
@@ -46,6 +47,34 @@ def plot_torque_vs_position(result: TorqueVsPosition, ax=None,
     low, high = ax.get_ylim()
     ax.set_ylim(low, high + 0.3 * (high - low))  # room for the legend above the curves
     ax.legend(fontsize=7, loc="upper center", ncol=3, framealpha=0.9)
+    return ax
+
+
+def plot_torque_harmonics(studies: dict[str, TorqueVsPosition], slot_order: int, ax=None,
+                          orders_shown: int = 6):
+    """Torque harmonics as bars, one group per order, one bar per study (``label -> study``).
+
+    The x-axis counts multiples of the slot order (``slot_order`` per electrical period,
+    :func:`fluxlab.studies.averaging.slot_order_electrical`), up to ``orders_shown`` of them;
+    amplitudes in per cent of each study's mean torque, so that studies at other currents
+    compare. Amplitude and phase of every order are in torque_harmonics*.csv.
+    """
+    ax = _axes(ax)
+    width = 0.8 / (3 * max(len(studies), 1))  # bars of one group share a third of a unit
+    for k, (label, r) in enumerate(studies.items()):
+        multiple = r.harmonic_orders / slot_order
+        keep = multiple <= orders_shown + 1e-9
+        share = 100 * r.harmonic_amplitudes_Nm[keep] / abs(r.torque_maxwell_mean_Nm)
+        offset = (k - (len(studies) - 1) / 2) * width
+        ax.bar(multiple[keep] + offset, share, width=width,
+               label=f"{label}: {r.current_peak_A:g} A at {r.current_angle_deg:.1f}°")
+    ax.set_xticks(range(1, orders_shown + 1))
+    ax.set_xticklabels([f"{m}×\n({m * slot_order})" for m in range(1, orders_shown + 1)])
+    ax.set_xlim(0, orders_shown + 0.5)
+    ax.set_xlabel(f"order: multiple of the slot order ({slot_order} per electrical period)")
+    ax.set_ylabel("amplitude (% of mean torque)")
+    ax.set_title("Torque harmonics (amplitude; phases in torque_harmonics*.csv)", fontsize=10)
+    ax.legend(fontsize=7, loc="upper right")
     return ax
 
 

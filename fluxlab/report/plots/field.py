@@ -14,10 +14,9 @@ import numpy as np
 from fluxlab.errors import SpecError
 from fluxlab.fem.sector_ties import sector_wraps
 from fluxlab.fem.solver import FieldSolution
-from fluxlab.geometry import rotor_regions, stator_regions
+from fluxlab.geometry import model_sector, rotor_regions, stator_regions
 from fluxlab.geometry.csg import to_shapely
 from fluxlab.machine.model import MachineModel
-from fluxlab.machine.winding import machine_symmetry
 from fluxlab.mesh.machine_mesh import MachineMesh
 from fluxlab.report.plots.mesh import region_colour
 from fluxlab.spec.types import MachineSpec
@@ -283,7 +282,7 @@ def outline_polygons(spec: MachineSpec, full: bool = False) -> list[tuple[str, o
     """
     from shapely import affinity
 
-    sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
+    sectors, sector_angle, _ = model_sector(spec)
     sector = _visible(rotor_regions(spec, sector_angle)) + _visible(
         stator_regions(spec, sector_angle))
     if not full:
@@ -356,7 +355,7 @@ def plot_outline(spec: MachineSpec, ax=None, *, full: bool = False):
 
     if ax is None:
         _, ax = plt.subplots(figsize=(5, 5), layout="constrained")
-    sectors, sector_angle, _ = machine_symmetry(spec.stator.slots, spec.poles)
+    sectors, sector_angle, _ = model_sector(spec)
     paths, colours, rings = [], [], []
     for name, geom in outline_polygons(spec, full):
         if name.startswith("airgap"):
