@@ -34,7 +34,9 @@ def plot_efficiency_map(emap, ax=None, rated: tuple[float, float] | None = None,
     levels = _levels(emap.efficiency)
     filled = ax.contourf(n, t, eff, levels=levels, cmap="viridis", extend="both")
     lines = ax.contour(n, t, eff, levels=levels, colors="k", linewidths=0.5)
-    ax.clabel(lines, fmt=lambda v: f"{100 * v:.0f} %", fontsize=7, inline=True)
+    # a small panel labels only the levels from 80 % up (the low-speed ones crowd together)
+    labelled = [v for v in lines.levels if v >= 0.8] if compact else lines.levels
+    ax.clabel(lines, labelled, fmt=lambda v: f"{100 * v:.0f} %", fontsize=7, inline=True)
     ax.plot(emap.envelope_speed_rpm, emap.envelope_torque_Nm, color="tab:red", lw=1.6,
             label="envelope" if compact else "envelope (current and voltage limits)")
     if rated is not None:
