@@ -218,7 +218,10 @@ def envelope_page_figure(result):
     import matplotlib.pyplot as plt
 
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86, bottom=0.15,
+    warn = [*result.ribs.warnings, *result.summary.get("grid_warnings", [])]
+    # warnings take lines above the caution: the plots move up for them
+    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86,
+                            bottom=0.15 + 0.035 * len(warn),
                             wspace=0.42, hspace=0.5, width_ratios=[1.1, 1.1, 1.0])
     fig.suptitle(f"Operating envelope: {result.spec.name}", fontsize=14, x=0.06, y=0.97,
                  ha="left")
@@ -245,7 +248,6 @@ def envelope_page_figure(result):
                      bbox=[-0.05, 0.1, 1.1, 0.9], cellLoc="left")
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
-    warn = list(result.ribs.warnings)
     text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate, "
                         "scaled to frequency and flux level over the efficiency map; "
                         "mechanical losses only as drive.mechanical_loss_at_max_speed_W gives "
