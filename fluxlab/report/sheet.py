@@ -143,6 +143,15 @@ def _table(ax, rows, title: str) -> None:
     table.set_fontsize(6.5)
 
 
+def _page_fonts(fig) -> None:
+    """One set of font sizes for the panels of a sheet page."""
+    for a in fig.axes:
+        a.title.set_fontsize(9)
+        a.tick_params(labelsize=7)
+        a.xaxis.label.set_fontsize(8)
+        a.yaxis.label.set_fontsize(8)
+
+
 def _ripple_page(pdf, evaluation: Evaluation) -> None:
     """The torque ripple: position curves at rated and at the overload MTPA, harmonics."""
     import matplotlib.pyplot as plt
@@ -161,11 +170,7 @@ def _ripple_page(pdf, evaluation: Evaluation) -> None:
     plot_torque_harmonics({k: v for k, v in studies.items() if v is not None},
                           slot_order_electrical(spec.stator.slots, spec.pole_pairs),
                           ax=fig.add_subplot(grid[1, :]))
-    for a in fig.axes:
-        a.title.set_fontsize(9)
-        a.tick_params(labelsize=7)
-        a.xaxis.label.set_fontsize(8)
-        a.yaxis.label.set_fontsize(8)
+    _page_fonts(fig)
     fig.text(0.07, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
     pdf.savefig(fig)
     plt.close(fig)
@@ -223,11 +228,7 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
             "Field at the rated point, position 0"
             + (" (mid-stack slice)" if summary.get("skew") else ""))
-    for a in fig.axes:
-        a.title.set_fontsize(9)
-        a.tick_params(labelsize=7)
-        a.xaxis.label.set_fontsize(8)
-        a.yaxis.label.set_fontsize(8)
+    _page_fonts(fig)
     fig.text(0.05, 0.03, caution_line(), fontsize=7.5, wrap=True, va="bottom")
     with PdfPages(path) as pdf:
         pdf.savefig(fig)
