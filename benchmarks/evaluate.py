@@ -64,7 +64,8 @@ def main() -> None:
     print(f"meshing            {t_mesh:7.2f} s")
     print(f"model set-up       {t_model:7.2f} s")
     print(f"studies            {t_studies:7.2f} s  ({solves} ripple solves at rated and overload, "
-          f"{iterations} Newton steps; {angle_solves} current-angle and {inductance_solves} inductance solves)")
+          f"{iterations} Newton steps; {angle_solves} current-angle and {inductance_solves} "
+          "inductance solves)")
     print(f"tables, figures, review.pdf {t_write:7.2f} s")
     print(f"peak resident memory {_peak_rss_mib():.0f} MiB (largest of this process and a worker)")
     print("summary: " + ", ".join(f"{k} {s[k]:.6g}" for k in (

@@ -126,6 +126,11 @@ def test_evaluate_writes_every_output(coarse_machine, tmp_path):
         assert (tmp_path / name).stat().st_size > 0
     # --full: the envelope files; the sheet's pages: key figures, ripple, envelope
     assert (tmp_path / "envelope").is_dir() and any((tmp_path / "envelope").glob("*.csv"))
+    # the rated point's terminal figures and, with --full, its losses and efficiency
+    assert summary["efficiency"] == pytest.approx(envelope["rated"]["efficiency"], rel=1e-12)
+    assert summary["iron_loss_W"] > 0 and summary["terminal_voltage_peak_V"] > 0
+    assert summary["copper_loss_W"] == pytest.approx(envelope["rated"]["copper_loss_W"])
+    assert (tmp_path / "envelope" / "efficiency_map.csv").stat().st_size > 0
     pages = re.findall(rb"/Type\s*/Page[^s]", (tmp_path / "review.pdf").read_bytes())
     assert len(pages) == 3
 

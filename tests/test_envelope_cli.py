@@ -20,8 +20,15 @@ from fluxlab.envelope import (
     rib_stress,
     torque_speed_envelope,
 )
+from fluxlab.envelope.efficiency import efficiency_map
 from fluxlab.envelope.ironloss import IronLoss, RegionLoss
-from fluxlab.envelope.study import EnvelopeResult, _rated_point, _summary
+from fluxlab.envelope.study import (
+    EnvelopeResult,
+    _rated_point,
+    _summary,
+    efficiency_grid,
+    loss_model,
+)
 from fluxlab.errors import SpecError
 from fluxlab.machine.dq import power_factor
 from fluxlab.report.envelope_files import write_envelope
@@ -54,10 +61,12 @@ def _synthetic_result():
     point = AveragedPoint(current, gamma, i_d, i_q, psi_d, psi_q, torque, torque,
                           power_factor(psi_d, psi_q, i_d, i_q), 1, 0)
     operating = OperatingPoints(point, {current: point})
-    rated = _rated_point(spec, point, res, iron)
+    losses = loss_model(spec, fmap, point, res, iron, s.max_speed_rpm)
+    rated = _rated_point(spec, point, iron, losses)
     summary = _summary(s, env, res, rated, ribs, fmap, operating)
+    emap = efficiency_map(fmap, env, losses, *efficiency_grid(env, 12))
     return EnvelopeResult(spec, s, fmap, mtpa_trajectory(fmap), res, env, iron, rated, ribs,
-                          operating, summary)
+                          operating, summary, {}, emap)
 
 
 def test_writer_tables_have_units_and_figures_exist(tmp_path):
@@ -65,7 +74,7 @@ def test_writer_tables_have_units_and_figures_exist(tmp_path):
     written = write_envelope(result, tmp_path)
     names = {p.name for p in written}
     for stem in ("flux_map_contours", "flux_map_cross_saturation", "mtpa", "torque_speed",
-                 "losses"):
+                 "losses", "efficiency_map"):
         assert f"{stem}.png" in names and f"{stem}.svg" in names
     assert {"envelope.pdf", "envelope_summary.json", "torque_speed.csv"} <= names
     with (tmp_path / "torque_speed.csv").open() as f:
@@ -77,9 +86,18 @@ def test_writer_tables_have_units_and_figures_exist(tmp_path):
     assert len(rows) == 25 and "Ldq_incremental_H" in rows[0] and "psi_d_Wb" in rows[0]
     # the inverse table of the linear map: id = psi_d / Ld wherever it is defined
     with (tmp_path / "flux_map_inverse.csv").open() as f:
-        inv = [r for r in csv.DictReader(f) if r["i_d_A"] != "nan"]
+        assert "left out" in f.readline()  # the header says what is missing
+        inv = list(csv.DictReader(f))
+    assert all(r["i_d_A"] != "nan" and r["i_q_A"] != "nan" for r in inv)  # no NaN rows
     assert inv and all(math.isclose(float(r["i_d_A"]), float(r["psi_d_Wb"]) / 0.05,
                                     rel_tol=1e-6, abs_tol=1e-9) for r in inv)
+    with (tmp_path / "losses.csv").open() as f:
+        copper = [r for r in csv.DictReader(f) if r["part"] == "copper"][0]
+    assert 0 < float(copper["mass_kg"]) < 100
+    with (tmp_path / "efficiency_map.csv").open() as f:
+        assert "unreachable and left out" in f.readline()
+        rows = list(csv.DictReader(f))
+    assert rows and all(0 < float(r["efficiency"]) < 1 for r in rows)
     summary = json.loads((tmp_path / "envelope_summary.json").read_text())
     assert "does not replace a structural analysis" in summary["rib_caution"]
     assert (tmp_path / "envelope.pdf").read_bytes()[:4] == b"%PDF"

@@ -19,8 +19,9 @@ from fluxlab.envelope import (
     speed_at_voltage,
     torque_speed_envelope,
 )
-from fluxlab.envelope.drive import RPM, dq_voltage
+from fluxlab.envelope.drive import RPM
 from fluxlab.errors import SpecError
+from fluxlab.machine.dq import dq_voltage
 
 LD, LQ, P = 0.05, 0.01, 2  # H, H, pole pairs: saliency 5
 I_MAX = 40.0  # A peak

@@ -8,13 +8,12 @@ import pytest
 from paths import DEMO, GEOMETRIES
 
 from fluxlab.envelope.ironloss import (
-    copper_loss,
     efficiency,
     harmonic_ellipses,
     region_losses,
 )
-from fluxlab.envelope.resistance import copper_resistivity, phase_resistance
 from fluxlab.errors import MaterialError, SpecError
+from fluxlab.machine.resistance import copper_loss, copper_resistivity, phase_resistance
 from fluxlab.materials.material import builtin_material, linear_material
 from fluxlab.materials.steels import GRADES
 from fluxlab.spec.machine_file import load_machine, machine_from_dict

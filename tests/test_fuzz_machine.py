@@ -384,7 +384,7 @@ def _expected_regions(raw: dict, sector_angle: float) -> set[str]:
     names = {"shaft", "rotor_iron", "airgap_rotor", "airgap_stator", "stator_iron",
              "slot_opening"}
     if poles:
-        names |= {f"barrier_{i + 1}" for i in range(len(raw["rotor"].get("barriers", [])))}
+        names |= {f"barrier_{i}" for i in range(len(raw["rotor"].get("barriers", [])))}
     names |= {f"slot_{k}_layer_{j}" for k in range(slots) for j in range(layers)}
     return names
 

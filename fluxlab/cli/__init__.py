@@ -35,7 +35,8 @@ from fluxlab.version import __version__
 
 __all__ = ["main", "option_problem"]
 
-_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope")
+_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope",
+             "export")
 
 
 def _parser() -> argparse.ArgumentParser:

@@ -67,7 +67,7 @@ def run(args) -> int:
     print(f"rated {r['current_peak_A']:g} A at {r['speed_rpm']:g} rpm: {r['torque_Nm']:.1f} "
           f"N·m, copper {r['copper_loss_W']:.0f} W, iron {r['iron_loss_W']:.0f} W, "
           f"efficiency {r['efficiency']:.3f}")
-    for warning in result.ribs.warnings:
+    for warning in (*result.ribs.warnings, *s["grid_warnings"]):
         print(f"WARNING: {warning}")
     print(f"caution: {result.ribs.caution}")
     print(f"wrote {len(written)} files to {args.out}")

@@ -71,7 +71,8 @@ def run(args) -> int:
           f"γ {s['current_angle_deg']:.1f} deg")
     if not math.isfinite(s["saliency_apparent"]):
         print("note: Ld or Lq undefined at a current angle of 0 or 90 deg")
-    for warning in evaluation_warnings(evaluation):
+    more = envelope.summary["grid_warnings"] if envelope is not None else []
+    for warning in (*evaluation_warnings(evaluation), *more):
         print(f"WARNING: {warning}")
     print(f"wrote {len(written)} files to {args.out}")
     return 0

@@ -16,7 +16,6 @@ from fluxlab.envelope.fluxmap import (
 from fluxlab.envelope.interp import FluxInterpolator, InverseTable, inverse_tables
 from fluxlab.envelope.ironloss import IronLoss, RegionLoss, iron_loss_estimate, region_losses
 from fluxlab.envelope.mtpa import MTPATrajectory, mtpa_trajectory
-from fluxlab.envelope.resistance import PhaseResistance, phase_resistance
 from fluxlab.envelope.ribstress import RIB_CAUTION, RibStress, rib_stress
 from fluxlab.envelope.study import (
     EnvelopeResult,
@@ -24,6 +23,7 @@ from fluxlab.envelope.study import (
     envelope_settings,
     envelope_study,
 )
+from fluxlab.machine.resistance import PhaseResistance, phase_resistance
 
 __all__ = [
     "Envelope",

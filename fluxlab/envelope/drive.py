@@ -19,12 +19,12 @@ import numpy as np
 from fluxlab.envelope.fluxmap import FluxMap
 from fluxlab.envelope.interp import FluxInterpolator
 from fluxlab.envelope.mtpa import mtpa_point
-from fluxlab.machine.dq import dq_torque
+from fluxlab.machine.dq import dq_torque, dq_voltage
+from fluxlab.machine.terminal import RPM
 
 __all__ = [
     "Envelope",
     "phase_voltage_limit",
-    "dq_voltage",
     "speed_at_voltage",
     "max_torque_point",
     "torque_speed_envelope",
@@ -32,7 +32,6 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
-RPM = 2 * math.pi / 60  # rad/s per rpm
 _ACTIVE = 1e-3  # a limit counts as binding within 0.1 % of it
 
 
@@ -48,11 +47,6 @@ def phase_voltage_limit(dc_link_voltage_V: float, modulation_limit: float = 1.0)
     if not (math.isfinite(modulation_limit) and 0 < modulation_limit <= 1):
         raise ValueError(f"modulation_limit = {modulation_limit!r}: must be in (0, 1]")
     return modulation_limit * dc_link_voltage_V / math.sqrt(3)
-
-
-def dq_voltage(psi_d, psi_q, i_d, i_q, resistance: float, omega_e: float):
-    """Steady-state (v_d, v_q), V peak: v_d = R i_d - w psi_q, v_q = R i_q + w psi_d."""
-    return resistance * i_d - omega_e * psi_q, resistance * i_q + omega_e * psi_d
 
 
 def speed_at_voltage(psi_d: float, psi_q: float, i_d: float, i_q: float,
@@ -135,6 +129,7 @@ class Envelope:
     ``region``: ``"MTPA"`` (current limit only), ``"flux weakening"`` (current and voltage
     limits), ``"MTPV"`` (voltage limit only, maximum torque per volt) or ``"none"``.
     ``base_speed_rpm``: where the MTPA point at the current limit reaches the voltage limit.
+    ``end_leakage_H``: the end-winding leakage inductance included in the voltages.
     """
 
     speed_rpm: np.ndarray
@@ -152,6 +147,7 @@ class Envelope:
     current_limit_peak_A: float
     voltage_limit_peak_V: float
     resistance_Ohm: float
+    end_leakage_H: float = 0.0
 
     @property
     def power_at_max_speed_W(self) -> float:
@@ -172,11 +168,14 @@ def torque_speed_envelope(
     current_limit_peak_A: float,
     voltage_limit_peak_V: float,
     speeds_rpm: Sequence[float],
+    end_leakage_H: float = 0.0,
 ) -> Envelope:
     """Largest torque at each speed (rpm) under a peak-current and a peak-voltage limit.
 
     ``fmap`` must cover the current limit (its grid reaches ``current_limit_peak_A`` on both
     axes); the base speed is added to the speeds when it lies inside their range.
+    ``end_leakage_H``: the end-winding leakage inductance, added to the map's flux linkages
+    for the voltages (:class:`FluxInterpolator`); it leaves the torque unchanged.
     """
     problems = []
     if not (math.isfinite(current_limit_peak_A) and 0 < current_limit_peak_A <= fmap.max_current_A
@@ -192,7 +191,7 @@ def torque_speed_envelope(
         problems.append(f"speeds_rpm = {speeds_rpm!r}: must be finite values >= 0")
     if problems:
         raise ValueError("; ".join(problems))
-    interp, p = FluxInterpolator(fmap), fmap.pole_pairs
+    interp, p = FluxInterpolator(fmap, end_leakage_H), fmap.pole_pairs
     gamma = mtpa_point(interp, current_limit_peak_A)
     i_d, i_q = current_limit_peak_A * math.cos(gamma), current_limit_peak_A * math.sin(gamma)
     psi_d, psi_q = (float(x) for x in interp.psi(i_d, i_q))
@@ -218,4 +217,4 @@ def torque_speed_envelope(
                     for c, v in zip(cols[4], cols[6], strict=True))
     return Envelope(speeds, *cols, regions, float(base),
                     dq_torque(p, psi_d, psi_q, i_d, i_q), float(current_limit_peak_A),
-                    float(voltage_limit_peak_V), float(resistance_Ohm))
+                    float(voltage_limit_peak_V), float(resistance_Ohm), interp.end_leakage_H)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -18,10 +19,16 @@ class FluxInterpolator:
     Bicubic interpolating splines where the grid has 4 or more points per axis, bilinear
     otherwise (scipy ``RectBivariateSpline`` with s = 0); both reproduce a linear map
     exactly. Currents are peak phase A; a current outside the grid is an error.
+    ``end_leakage_H``: a leakage inductance the 2-D map leaves out (the end winding), added as
+    L i to both flux linkages (terminal flux linkages); the torque does not change.
     """
 
-    def __init__(self, fmap: FluxMap):
+    def __init__(self, fmap: FluxMap, end_leakage_H: float = 0.0):
         from scipy.interpolate import RectBivariateSpline
+
+        if not (math.isfinite(end_leakage_H) and end_leakage_H >= 0):
+            raise ValueError(f"end_leakage_H = {end_leakage_H!r}: must be >= 0")
+        self.end_leakage_H = float(end_leakage_H)
 
         kx, ky = min(3, fmap.i_d_A.size - 1), min(3, fmap.i_q_A.size - 1)
         self.fmap = fmap
@@ -40,11 +47,12 @@ class FluxInterpolator:
                 f"flux map grid [0, {self.fmap.i_d_A[-1]:.4g}] x [0, {self.fmap.i_q_A[-1]:.4g}] A"
             )
         x, y = np.clip(i_d, 0, self.fmap.i_d_A[-1]), np.clip(i_q, 0, self.fmap.i_q_A[-1])
-        return self._d.ev(x, y), self._q.ev(x, y)
+        return self.psi_inside(x, y)
 
     def psi_inside(self, i_d: np.ndarray, i_q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`psi` without the range check, for inner loops whose currents lie inside."""
-        return self._d.ev(i_d, i_q), self._q.ev(i_d, i_q)
+        leak = self.end_leakage_H
+        return self._d.ev(i_d, i_q) + leak * i_d, self._q.ev(i_d, i_q) + leak * i_q
 
     def torque(self, i_d, i_q) -> np.ndarray:
         """Torque T = 3/2 p (psi_d iq - psi_q id), N m, at the given currents."""

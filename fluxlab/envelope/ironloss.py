@@ -37,7 +37,6 @@ __all__ = [
     "flux_density_waveforms",
     "iron_regions",
     "iron_loss_estimate",
-    "copper_loss",
     "efficiency",
 ]
 
@@ -242,12 +241,12 @@ def iron_loss_estimate(model, current_peak: float, current_angle: float, speed_r
                     math.degrees(current_angle), b.shape[0])
 
 
-def copper_loss(resistance_Ohm: float, current_peak_A: float) -> float:
-    """Copper loss of the three phases, W: 3/2 R I^2 with I the peak phase current."""
-    return 1.5 * resistance_Ohm * current_peak_A**2
+def efficiency(power_W: float, copper_W: float, iron_W: float,
+               mechanical_W: float = 0.0) -> float:
+    """Efficiency (P - P_mech) / (P + P_cu + P_fe) of a motoring point, W in, 1 out.
 
-
-def efficiency(power_W: float, copper_W: float, iron_W: float) -> float:
-    """Efficiency P / (P + P_cu + P_fe) of a motoring point; mechanical losses left out."""
+    P = T omega from the electromagnetic torque; the shaft gives P - P_mech (friction and
+    windage), the supply P + P_cu + P_fe.
+    """
     total = power_W + copper_W + iron_W
-    return power_W / total if total > 0 else math.nan
+    return (power_W - mechanical_W) / total if total > 0 else math.nan

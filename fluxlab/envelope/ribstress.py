@@ -161,7 +161,7 @@ def rib_stress(spec: MachineSpec, speed_rpm: float | None = None,
                             force / (rib_area + post_area), allowed)
         if row.exceeded:
             warnings.append(
-                f"barrier {i + 1}: mean rib/post stress {row.stress_Pa / 1e6:.1f} MPa at "
+                f"rotor.barriers[{i}]: mean rib/post stress {row.stress_Pa / 1e6:.1f} MPa at "
                 f"{speed:g} rpm exceeds the allowed {allowed / 1e6:.1f} MPa (yield "
                 f"{steel.yield_strength_Pa / 1e6:.0f} MPa / safety factor {factor:g})")
         rows.append(row)

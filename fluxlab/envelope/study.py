@@ -11,13 +11,22 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from fluxlab.envelope.drive import Envelope, phase_voltage_limit, torque_speed_envelope
+from fluxlab.envelope.efficiency import (
+    EfficiencyMap,
+    LossModel,
+    efficiency_map,
+    mechanical_loss,
+)
 from fluxlab.envelope.fluxmap import FluxMap, current_grid, flux_map
-from fluxlab.envelope.ironloss import IronLoss, copper_loss, efficiency, iron_loss_estimate
+from fluxlab.envelope.interp import FluxInterpolator
+from fluxlab.envelope.ironloss import IronLoss, efficiency, iron_loss_estimate
 from fluxlab.envelope.mtpa import MTPATrajectory, mtpa_trajectory, with_engine_points
-from fluxlab.envelope.resistance import PhaseResistance, phase_resistance
 from fluxlab.envelope.ribstress import RibStress, rib_stress
 from fluxlab.errors import MaterialError
+from fluxlab.machine.end_winding import end_winding_leakage
 from fluxlab.machine.model import build_model
+from fluxlab.machine.resistance import PhaseResistance, phase_resistance
+from fluxlab.machine.terminal import terminal_figures
 from fluxlab.spec.types import MachineSpec
 from fluxlab.studies.averaging import averaging_positions
 from fluxlab.studies.curves import ANGLE_STEP_DEG, torque_vs_current_angle
@@ -30,9 +39,19 @@ __all__ = [
     "envelope_settings",
     "envelope_study",
     "operating_points",
+    "loss_model",
+    "efficiency_grid",
+    "grid_warnings",
 ]
 
 log = logging.getLogger(__name__)
+
+#: Speeds and torques of the efficiency map, each.
+EFFICIENCY_POINTS = 40
+#: Largest deviation of the flux map's torque from the solver's at a point the solver
+#: computed directly before the map's figures are flagged as too coarse (judgement: the
+#: figures are read to a few percent; common practice, no source).
+MAP_TORQUE_TOLERANCE = 0.02
 
 
 @dataclass(frozen=True)
@@ -111,6 +130,7 @@ class EnvelopeResult:
     operating: OperatingPoints
     summary: dict
     timings_s: dict = field(default_factory=dict)
+    efficiency_map: EfficiencyMap | None = None
 
 
 def operating_points(model, currents: list[float], workers: int = 1,
@@ -135,15 +155,40 @@ def operating_points(model, currents: list[float], workers: int = 1,
     return OperatingPoints(rated, {c: s.mtpa for c, s in studies.items()})
 
 
-def _rated_point(spec, rated: AveragedPoint, res, iron) -> dict:
-    speed = spec.operating.speed_rpm
-    power = rated.torque_Nm * speed * 2 * math.pi / 60
-    cu = copper_loss(res.resistance_Ohm, rated.current_peak_A)
+def loss_model(spec: MachineSpec, fmap: FluxMap, rated: AveragedPoint, res: PhaseResistance,
+               iron: IronLoss | None, max_speed_rpm: float) -> LossModel:
+    """The losses' inputs: the rated point's iron loss referred to the flux map's |psi| there."""
+    psi_d, psi_q = FluxInterpolator(fmap).psi(rated.i_d, rated.i_q)
+    alphas = {name: spec.materials[name.split()[0]].loss.alpha for name in
+              ("stator teeth", "stator yoke", "rotor")} if iron is not None else {}
+    return LossModel(res.resistance_Ohm, iron, float(math.hypot(psi_d, psi_q)), alphas,
+                     spec.drive.mechanical_loss_at_max_speed_W, max_speed_rpm)
+
+
+def efficiency_grid(env: Envelope, points: int = EFFICIENCY_POINTS):
+    """Speeds and torques of the efficiency map: ``points`` each, from 1/points of the top
+    speed and of the largest envelope torque up to them (the torque to 0.999 of it: the
+    map's 0.5 deg angle grid reaches the envelope's refined MTPA torque within 1e-4)."""
+    top_speed, top_torque = float(env.speed_rpm.max()), 0.999 * float(env.torque_Nm.max())
+    return (np.linspace(top_speed / points, top_speed, points),
+            np.linspace(top_torque / points, top_torque, points))
+
+
+def _rated_point(spec, rated: AveragedPoint, iron, losses: LossModel) -> dict:
+    """The rated point at the rated speed: terminal figures (end leakage included), losses."""
+    terminal = terminal_figures(spec, rated.psi_d, rated.psi_q, rated.i_d, rated.i_q,
+                                rated.torque_Nm, spec.operating.speed_rpm)
     fe = iron.total_W if iron is not None else math.nan
+    cu = terminal["copper_loss_W"]
+    mech = float(mechanical_loss(losses, terminal["speed_rpm"]))
     return {"current_peak_A": rated.current_peak_A, "current_angle_deg": rated.current_angle_deg,
-            "speed_rpm": speed, "torque_Nm": rated.torque_Nm, "power_W": power,
-            "copper_loss_W": cu, "iron_loss_W": fe, "efficiency": efficiency(power, cu, fe),
-            "power_factor": rated.power_factor}
+            "speed_rpm": terminal["speed_rpm"], "torque_Nm": rated.torque_Nm,
+            "power_W": terminal["power_W"], "copper_loss_W": cu, "iron_loss_W": fe,
+            "mechanical_loss_W": mech, "efficiency": efficiency(terminal["power_W"], cu, fe, mech),
+            "power_factor": terminal["power_factor"],
+            "power_factor_2d": terminal["power_factor_2d"],
+            "terminal_voltage_peak_V": terminal["terminal_voltage_peak_V"],
+            "copper_mass_kg": terminal["copper_mass_kg"]}
 
 
 def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, *,
@@ -177,8 +222,9 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
                                                                 21)), operating.mtpa)
     res = phase_resistance(spec)
     speeds = np.linspace(0.0, settings.max_speed_rpm, settings.speed_points)
+    leakage = end_winding_leakage(spec)
     env = torque_speed_envelope(fmap, res.resistance_Ohm, settings.current_limit_peak_A,
-                                settings.voltage_limit_peak_V, speeds)
+                                settings.voltage_limit_peak_V, speeds, leakage.inductance_H)
     rated = operating.rated
     iron = None
     if settings.loss_samples:
@@ -191,10 +237,49 @@ def envelope_study(spec: MachineSpec, settings: EnvelopeSettings | None = None, 
             log.warning("iron loss skipped: %s", err)
     timings["iron_loss"] = time.perf_counter() - start - sum(timings.values())
     ribs = rib_stress(spec, settings.max_speed_rpm, settings.rib_safety_factor)
-    rated_point = _rated_point(spec, rated, res, iron)
-    summary = _summary(settings, env, res, rated_point, ribs, fmap, operating)
+    losses = loss_model(spec, fmap, rated, res, iron, settings.max_speed_rpm)
+    rated_point = _rated_point(spec, rated, iron, losses)
+    emap = efficiency_map(fmap, env, losses, *efficiency_grid(env))
+    warnings = grid_warnings(fmap, operating)
+    for warning in warnings:
+        log.warning("%s", warning)
+    summary = {**_summary(settings, env, res, rated_point, ribs, fmap, operating),
+               **_efficiency_summary(emap, spec), "grid_warnings": warnings}
+    timings["efficiency_map"] = time.perf_counter() - start - sum(timings.values())
     return EnvelopeResult(spec, settings, fmap, mtpa, res, env, iron, rated_point, ribs,
-                          operating, summary, timings)
+                          operating, summary, timings, emap)
+
+
+def grid_warnings(fmap: FluxMap, operating: OperatingPoints) -> list[str]:
+    """Warnings when the flux map is too coarse for the figures drawn from it.
+
+    The map's interpolated torque at each current and angle the operating-point engine
+    solved directly (rated point, MTPA points) against the engine's torque; more than
+    :data:`MAP_TORQUE_TOLERANCE` apart flags the MTPA trajectory, envelope and efficiency map.
+    """
+    interp = FluxInterpolator(fmap)
+    points = [operating.rated, *operating.mtpa.values()]
+    worst = max(points, key=lambda pt: abs(float(interp.torque(pt.i_d, pt.i_q)) / pt.torque_Nm
+                                           - 1) if pt.torque_Nm else 0.0)
+    mapped = float(interp.torque(worst.i_d, worst.i_q))
+    off = mapped / worst.torque_Nm - 1 if worst.torque_Nm else 0.0
+    if abs(off) <= MAP_TORQUE_TOLERANCE:
+        return []
+    return [f"flux map grid too coarse ({fmap.i_d_A.size} points per axis): its torque at "
+            f"{worst.current_peak_A:g} A peak, {worst.current_angle_deg:.1f} deg is "
+            f"{mapped:.1f} N·m against {worst.torque_Nm:.1f} N·m solved directly "
+            f"({100 * off:+.0f} %); the MTPA trajectory, torque-speed envelope and efficiency "
+            f"map come from the map: raise --points (drive.flux_map_points)"]
+
+
+def _efficiency_summary(emap: EfficiencyMap, spec: MachineSpec) -> dict:
+    """The efficiency map's best point and the mechanical-loss input."""
+    k = np.unravel_index(np.nanargmax(emap.efficiency), emap.efficiency.shape)
+    return {"efficiency_map_max": float(emap.efficiency[k]),
+            "efficiency_map_max_at_rpm": float(emap.speed_rpm[k[0]]),
+            "efficiency_map_max_at_Nm": float(emap.torque_Nm[k[1]]),
+            "efficiency_map_iron_loss": emap.iron_included,
+            "mechanical_loss_at_max_speed_W": spec.drive.mechanical_loss_at_max_speed_W}
 
 
 def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) -> dict:
@@ -212,6 +297,7 @@ def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) 
         "phase_resistance_Ohm": res.resistance_Ohm,
         "copper_temperature_C": res.temperature_C,
         "end_winding_length_m": res.end_winding_length_m,
+        "end_leakage_H": env.end_leakage_H,
         "rated": rated,
         "mtpa": [{"current_peak_A": c, "current_angle_deg": pt.current_angle_deg,
                   "torque_Nm": pt.torque_Nm} for c, pt in sorted(operating.mtpa.items())],
@@ -225,5 +311,6 @@ def _summary(settings, env, res, rated, ribs, fmap, operating: OperatingPoints) 
         "rib_stress_exceeded": ribs.exceeded,
         "rib_caution": ribs.caution,
         "conventions": "peak phase currents and voltages; amplitude-invariant Park "
-                       "transform; current angle from the d-axis; V_max = m V_dc / sqrt(3)",
+                       "transform; current angle from the d-axis; V_max = m V_dc / sqrt(3); "
+                       "voltages with the phase resistance and the end-winding leakage",
     }

@@ -76,7 +76,8 @@ def rotor_regions(spec: MachineSpec, sector_angle: float) -> list[tuple[str, Sha
     """Rotor part at position 0: the d-axis on the sector start edge (angle 0).
 
     Pole j has its q-axis at (j + 1/2) * pi/p; barrier i of every pole in the sector is
-    the region ``barrier_{i+1}`` (numbered from the surface inwards).
+    the region ``barrier_{i}``, i as in the machine file's ``rotor.barriers[i]`` (0 the
+    nearest the surface).
     """
     rotor, r_rotor = spec.rotor, spec.rotor_radius
     r_shaft = rotor.shaft_diameter / 2
@@ -92,7 +93,7 @@ def rotor_regions(spec: MachineSpec, sector_angle: float) -> list[tuple[str, Sha
         if post is not None:
             shape = cut(shape, post)
         for j in range(poles_in_sector(spec, sector_angle)):
-            regions.append((f"barrier_{i + 1}", rotate(shape, (j + 0.5) * pole_pitch)))
+            regions.append((f"barrier_{i}", rotate(shape, (j + 0.5) * pole_pitch)))
     return regions
 
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-__all__ = ["dq_torque", "power_factor"]
+__all__ = ["dq_torque", "dq_voltage", "power_factor"]
 
 
 def dq_torque(pole_pairs: int, psi_d, psi_q, i_d, i_q):
@@ -19,6 +19,14 @@ def dq_torque(pole_pairs: int, psi_d, psi_q, i_d, i_q):
     reference-frame theory; from memory).
     """
     return 1.5 * pole_pairs * (psi_d * i_q - psi_q * i_d)
+
+
+def dq_voltage(psi_d, psi_q, i_d, i_q, resistance: float, omega_e: float):
+    """Steady-state (v_d, v_q), V peak: v_d = R i_d - w psi_q, v_q = R i_q + w psi_d.
+
+    ``omega_e``: electrical angular speed, rad/s; ``resistance``: phase resistance, Ohm.
+    """
+    return resistance * i_d - omega_e * psi_q, resistance * i_q + omega_e * psi_d
 
 
 def power_factor(psi_d: float, psi_q: float, i_d: float, i_q: float) -> float:

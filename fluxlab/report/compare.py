@@ -35,7 +35,9 @@ FIGURE_ROWS = (
     ("saliency_apparent", "saliency Ld/Lq at the operating point", 1.0, "{:.2f}"),
     ("Ld_apparent_H", "Ld apparent at the operating point (mH)", 1e3, "{:.2f}"),
     ("Lq_apparent_H", "Lq apparent at the operating point (mH)", 1e3, "{:.2f}"),
-    ("power_factor", "power factor", 1.0, "{:.3f}"),
+    ("power_factor", "power factor (end leakage included)", 1.0, "{:.3f}"),
+    ("terminal_voltage_peak_V", "terminal voltage at rated speed (V peak)", 1.0, "{:.0f}"),
+    ("current_density_rms_A_per_mm2", "slot current density (A/mm² rms)", 1.0, "{:.2f}"),
     ("mtpa_angle_deg", "MTPA angle (deg from d-axis)", 1.0, "{:.1f}"),
     ("current_peak_A", "current (A peak)", 1.0, "{:.1f}"),
     ("current_angle_deg", "current angle (deg from d-axis)", 1.0, "{:.1f}"),
@@ -48,21 +50,23 @@ _COLOURS = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#8c564b")
 class CompareEntry:
     """One candidate on the sheet.
 
-    ``spec`` (a MachineSpec, None when unknown) is drawn as an outline; curves are pairs of
+    ``spec`` (a MachineSpec, None when unknown) is drawn as an outline; curves are tuples of
     arrays: (rotor position, deg; torque, N·m) and (current angle from the d-axis, deg;
-    torque, N·m), None when not computed. ``details`` maps extra table rows (a sweep's
-    varied keys, file units) to their values.
+    torque, N·m[; current, A peak]), None when not computed; a current-angle curve with
+    its currents is drawn as one line per current. ``details`` maps extra table rows (a
+    sweep's varied keys, file units) to their values.
     """
 
     label: str
     spec: object | None
     summary: dict
     torque_vs_position: tuple[np.ndarray, np.ndarray] | None = None
-    torque_vs_current_angle: tuple[np.ndarray, np.ndarray] | None = None
+    torque_vs_current_angle: tuple[np.ndarray, ...] | None = None
     details: dict | None = None
 
 
-def _read_curve(path: Path, x_name: str) -> tuple[np.ndarray, np.ndarray] | None:
+def _read_curve(path: Path, x_name: str) -> tuple[np.ndarray, ...] | None:
+    """(x, torque) from a CSV, with the currents as a third array when it has them."""
     if not path.exists():
         return None
     with path.open(newline="", encoding="utf-8") as f:
@@ -70,6 +74,8 @@ def _read_curve(path: Path, x_name: str) -> tuple[np.ndarray, np.ndarray] | None
     try:
         x = np.array([float(r[x_name]) for r in rows])
         y = np.array([float(r["torque_Nm"]) for r in rows])
+        if rows and "current_peak_A" in rows[0]:
+            return x, y, np.array([float(r["current_peak_A"]) for r in rows])
     except (KeyError, ValueError) as err:
         raise FluxlabError(f"{path}: needs numeric columns {x_name},torque_Nm ({err})") from err
     return x, y
@@ -133,22 +139,40 @@ def _table(ax, entries: Sequence[CompareEntry]) -> None:
     extra = list(dict.fromkeys(k for e in entries for k in (e.details or {})))
     text = [[_cell(e.details or {}, k, 1.0, "{:g}") for e in entries] for k in extra] + text
     labels = extra + labels
+    # the table fills its axes exactly (bbox), so no row runs into the panels around it
     table = ax.table(cellText=text, rowLabels=labels,
-                     colLabels=[e.label for e in entries], loc="center", cellLoc="center")
+                     colLabels=[e.label for e in entries], cellLoc="center",
+                     bbox=[0.0, 0.0, 1.0, 1.0])
     table.auto_set_font_size(False)
     table.set_fontsize(8)
-    table.scale(1.0, 1.15)
     for j in range(len(entries)):
         table[0, j].get_text().set_color(_COLOURS[j % len(_COLOURS)])
+
+
+_STYLES = ("-", "--", ":", "-.")
+
+
+def _lines(curve: tuple[np.ndarray, ...]) -> list[tuple[str, np.ndarray, np.ndarray]]:
+    """(current label, x, y) per current of a curve, sorted by x; one line without currents."""
+    if len(curve) < 3:
+        return [("", curve[0], curve[1])]
+    out = []
+    for current in dict.fromkeys(curve[2].tolist()):
+        mask = curve[2] == current
+        order = np.argsort(curve[0][mask], kind="stable")
+        out.append((f", {current:g} A", curve[0][mask][order], curve[1][mask][order]))
+    return out
 
 
 def _curves(ax, entries: Sequence[CompareEntry], attr: str, xlabel: str, title: str) -> None:
     drawn = False
     for j, e in enumerate(entries):
         curve = getattr(e, attr)
-        if curve is not None:
-            ax.plot(curve[0], curve[1], "-o", ms=2.5, lw=1.2,
-                    color=_COLOURS[j % len(_COLOURS)], label=e.label)
+        if curve is None:
+            continue
+        for k, (current, x, y) in enumerate(_lines(curve)):
+            ax.plot(x, y, _STYLES[k % len(_STYLES)], marker="o", ms=2.5, lw=1.2,
+                    color=_COLOURS[j % len(_COLOURS)], label=f"{e.label}{current}")
             drawn = True
     ax.set_title(title, fontsize=9)
     ax.set_xlabel(xlabel, fontsize=8)
@@ -170,17 +194,23 @@ def compare_figure(entries: Sequence[CompareEntry], title: str = "Candidate comp
 
     entries = list(entries)[:PER_PAGE]
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(3, 2 * len(entries), height_ratios=(1.0, 1.0, 1.1),
-                            left=0.2, right=0.97, top=0.9, bottom=0.13, hspace=0.4,
+    curves = any(e.torque_vs_position is not None or e.torque_vs_current_angle is not None
+                 for e in entries)
+    # without curves (operating-point studies) outlines and table share the page
+    ratios = (1.15, 1.0, 1.25) if curves else (1.6, 1.2)
+    grid = fig.add_gridspec(len(ratios), 2 * len(entries), height_ratios=ratios,
+                            left=0.24, right=0.97, top=0.92, bottom=0.1, hspace=0.45,
                             wspace=0.6)
     for j, e in enumerate(entries):
         _outline(fig.add_subplot(grid[0, 2 * j: 2 * j + 2]), e)
     _table(fig.add_subplot(grid[1, :]), entries)
-    half = len(entries)
-    _curves(fig.add_subplot(grid[2, :half]), entries, "torque_vs_position",
-            "rotor position (mechanical deg)", "Torque against rotor position")
-    _curves(fig.add_subplot(grid[2, half:]), entries, "torque_vs_current_angle",
-            "current angle from the d-axis (electrical deg)", "Torque against current angle")
+    if curves:
+        half = len(entries)
+        _curves(fig.add_subplot(grid[2, :half]), entries, "torque_vs_position",
+                "rotor position (mechanical deg)", "Torque against rotor position")
+        _curves(fig.add_subplot(grid[2, half:]), entries, "torque_vs_current_angle",
+                "current angle from the d-axis (electrical deg)",
+                "Torque against current angle (line per current, A peak)")
     fig.suptitle(title, fontsize=12)
     fig.text(0.5, 0.025, caution_line(), ha="center", va="bottom", fontsize=7, wrap=True,
              style="italic")

@@ -11,9 +11,38 @@ import numpy as np
 from fluxlab.envelope import incremental_inductances, inverse_tables
 from fluxlab.report.figures import save_figure
 from fluxlab.report.plots import envelope as pe
+from fluxlab.report.plots.efficiency import plot_efficiency_map
 from fluxlab.report.tables import write_csv
 
-__all__ = ["envelope_tables", "write_envelope"]
+__all__ = ["TABLE_NOTES", "envelope_tables", "write_envelope"]
+
+
+#: First-line comments of the tables that need one.
+TABLE_NOTES = {
+    "flux_map_inverse": "currents at flux linkages on a regular grid; flux linkages that no "
+                        "current within the flux map reaches are left out (not NaN rows)",
+    "efficiency_map": "least-current point per (speed, torque) under the current and voltage "
+                      "limits; points above the envelope are unreachable and left out; "
+                      "peak phase current and voltage; efficiency (T w - P_mech) / "
+                      "(T w + P_cu + P_fe)",
+}
+
+
+def _reachable(columns: dict, keys: tuple[str, ...]) -> dict:
+    """The columns flattened, rows with a non-finite value in ``keys`` left out."""
+    flat = {name: np.ravel(values) for name, values in columns.items()}
+    keep = np.all([np.isfinite(flat[k]) for k in keys], axis=0)
+    return {name: values[keep] for name, values in flat.items()}
+
+
+def _efficiency_table(emap) -> dict:
+    n, t = np.meshgrid(emap.speed_rpm, emap.torque_Nm, indexing="ij")
+    return _reachable({"speed_rpm": n, "torque_Nm": t, "current_peak_A": emap.current_peak_A,
+                       "current_angle_deg": emap.current_angle_deg,
+                       "voltage_peak_V": emap.voltage_peak_V,
+                       "copper_loss_W": emap.copper_loss_W, "iron_loss_W": emap.iron_loss_W,
+                       "mechanical_loss_W": emap.mechanical_loss_W,
+                       "efficiency": emap.efficiency}, ("efficiency",))
 
 
 def envelope_tables(result) -> dict[str, dict]:
@@ -27,8 +56,8 @@ def envelope_tables(result) -> dict[str, dict]:
         "flux_map": {"i_d_A": d, "i_q_A": q, "psi_d_Wb": f.psi_d_Wb, "psi_q_Wb": f.psi_q_Wb,
                      "torque_maxwell_Nm": f.torque_Nm, "torque_dq_Nm": f.torque_dq_Nm,
                      **lk},
-        "flux_map_inverse": {"psi_d_Wb": pd, "psi_q_Wb": pq, "i_d_A": inv.i_d_A,
-                             "i_q_A": inv.i_q_A},
+        "flux_map_inverse": _reachable({"psi_d_Wb": pd, "psi_q_Wb": pq, "i_d_A": inv.i_d_A,
+                                         "i_q_A": inv.i_q_A}, ("i_d_A", "i_q_A")),
         "mtpa": {"current_peak_A": m.current_peak_A, "current_angle_deg": m.current_angle_deg,
                  "torque_Nm": m.torque_Nm, "i_d_A": m.i_d_A, "i_q_A": m.i_q_A,
                  "psi_d_Wb": m.psi_d_Wb, "psi_q_Wb": m.psi_q_Wb,
@@ -42,7 +71,7 @@ def envelope_tables(result) -> dict[str, dict]:
                          "voltage_peak_V": e.voltage_peak_V, "power_factor": e.power_factor,
                          "region": np.array(e.region)},
         "rib_stress": {
-            "barrier": [b.barrier + 1 for b in result.ribs.barriers],
+            "barrier": [f"rotor.barriers[{b.barrier}]" for b in result.ribs.barriers],
             "island_mass_kg": [b.island_mass_kg for b in result.ribs.barriers],
             "centroid_radius_mm": [1e3 * b.centroid_radius_m for b in result.ribs.barriers],
             "force_N": [b.force_N for b in result.ribs.barriers],
@@ -53,10 +82,12 @@ def envelope_tables(result) -> dict[str, dict]:
             "exceeded": np.array(["yes" if b.exceeded else "no" for b in result.ribs.barriers]),
         },
     }
+    if result.efficiency_map is not None:
+        tables["efficiency_map"] = _efficiency_table(result.efficiency_map)
     regions = result.iron_loss.regions if result.iron_loss else ()
     tables["losses"] = {
         "part": np.array([r.name for r in regions] + ["copper"]),
-        "mass_kg": [r.mass_kg for r in regions] + [np.nan],
+        "mass_kg": [r.mass_kg for r in regions] + [result.rated_point["copper_mass_kg"]],
         "hysteresis_W": [r.hysteresis_W for r in regions] + [0.0],
         "eddy_W": [r.eddy_W for r in regions] + [0.0],
         "excess_W": [r.excess_W for r in regions] + [0.0],
@@ -72,7 +103,7 @@ def write_envelope(result, out: Path) -> list[Path]:
     matplotlib.use("Agg")
 
     out.mkdir(parents=True, exist_ok=True)
-    written = [write_csv(out / f"{stem}.csv", cols)
+    written = [write_csv(out / f"{stem}.csv", cols, TABLE_NOTES.get(stem))
                for stem, cols in envelope_tables(result).items()]
     summary = {**result.summary, "rib_warnings": list(result.ribs.warnings),
                "timings_s": result.timings_s}
@@ -91,6 +122,10 @@ def write_envelope(result, out: Path) -> list[Path]:
             title=f"Losses at {result.rated_point['current_peak_A']:g} A peak (MTPA), "
                   f"{result.rated_point['speed_rpm']:g} rpm"), None),
     ]
+    if result.efficiency_map is not None:
+        rated = (result.rated_point["speed_rpm"], result.rated_point["torque_Nm"])
+        figures.append(("efficiency_map", lambda: plot_efficiency_map(
+            result.efficiency_map, rated=rated), None))
     for stem, draw, size in figures:
         axes = draw()
         first = axes[0] if isinstance(axes, (list, np.ndarray)) else axes

@@ -18,7 +18,7 @@ from fluxlab.report.plots.curves import (
 )
 from fluxlab.report.plots.field import plot_field
 from fluxlab.report.plots.winding import plot_winding_layout
-from fluxlab.report.sheet import write_review_sheet
+from fluxlab.report.sheet import sheet_summary, write_review_sheet
 from fluxlab.report.tables import evaluation_tables, table_comment, write_csv
 from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.plausibility import point_warnings
@@ -34,10 +34,11 @@ def evaluation_warnings(evaluation) -> list[str]:
                           float(point.solution.b_norm.max()))
 
 
-def _write_data(evaluation, out: Path, machine_file: Path | None) -> list[Path]:
-    """summary.json, a copy of the machine file and the CSV tables."""
+def _write_data(evaluation, out: Path, machine_file: Path | None, envelope) -> list[Path]:
+    """summary.json (with the envelope's rated iron loss and efficiency when given), a copy
+    of the machine file and the CSV tables."""
 
-    summary = {**evaluation.summary, "caution": CAUTION,
+    summary = {**sheet_summary(evaluation.summary, envelope), "caution": CAUTION,
                "warnings": evaluation_warnings(evaluation)}
     (out / "summary.json").write_text(json.dumps(summary, indent=2, default=float))
     written = [out / "summary.json"]
@@ -110,7 +111,7 @@ def write_evaluation(evaluation, out: Path, machine_file: Path | None = None,
     matplotlib.use("Agg")
 
     out.mkdir(parents=True, exist_ok=True)
-    written = _write_data(evaluation, out, machine_file)
+    written = _write_data(evaluation, out, machine_file, envelope)
     jobs = [lambda: _write_sheet(evaluation, out, envelope) + _write_curves(evaluation, out),
             lambda: _write_field_and_winding(evaluation, out)]
     if envelope is not None:

@@ -27,6 +27,9 @@ def save_figure(fig, out_dir: str | Path, stem: str, formats: Sequence[str] = ("
                 dpi: float = 150) -> list[Path]:
     """Write ``fig`` as ``out_dir/stem.<format>`` for each format, then close it.
 
+    The page is cropped to what is drawn (``bbox_inches="tight"``, 0.08 in of padding), so
+    a figure of fixed aspect (a cross-section, a slot table) carries no empty margins.
+
     Parameters
     ----------
     fig
@@ -52,7 +55,7 @@ def save_figure(fig, out_dir: str | Path, stem: str, formats: Sequence[str] = ("
     paths = [out_dir / f"{stem}.{suffix}" for suffix in formats]
     try:
         for path in paths:
-            fig.savefig(path, dpi=dpi)
+            fig.savefig(path, dpi=dpi, bbox_inches="tight", pad_inches=0.08)
     finally:
         plt.close(fig)
     return paths

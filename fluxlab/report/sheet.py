@@ -1,5 +1,6 @@
-"""The review sheet of an evaluation (PDF), for a design review: the key figures and curves
-on page one, the torque ripple on page two, the envelope (when computed) after them."""
+"""The review sheet of an evaluation (PDF), for a design review: the rated point's terminal
+figures, losses and key figures with curves on page one, the torque ripple on page two, the
+envelope (when computed) after them."""
 
 from __future__ import annotations
 
@@ -19,7 +20,7 @@ from fluxlab.report.plots.field import plot_field, plot_outline
 from fluxlab.studies.averaging import slot_order_electrical
 from fluxlab.studies.evaluate import Evaluation
 
-__all__ = ["key_figures", "write_review_sheet"]
+__all__ = ["key_figures", "rated_figures", "sheet_summary", "write_review_sheet"]
 
 
 def _fmt(value, digits=4) -> str:
@@ -28,24 +29,67 @@ def _fmt(value, digits=4) -> str:
     return f"{value:.{digits}g}"
 
 
+def sheet_summary(summary: dict, envelope=None) -> dict:
+    """The evaluation's summary with the rated point's iron loss, efficiency and mechanical
+    loss of an envelope result (None without one: those need ``evaluate --full``)."""
+    rated = envelope.rated_point if envelope is not None else {}
+    return {**summary,
+            "iron_loss_W": rated.get("iron_loss_W"),
+            "mechanical_loss_W": rated.get("mechanical_loss_W"),
+            "efficiency": rated.get("efficiency"),
+            "voltage_limit_peak_V": (envelope.settings.voltage_limit_peak_V
+                                     if envelope is not None else None)}
+
+
+def rated_figures(summary: dict) -> list[tuple[str, str]]:
+    """(quantity with unit, value) rows of the rated point at the rated speed (a summary of
+    :func:`sheet_summary`): terminal figures, losses, efficiency, inductances."""
+    limit = summary.get("voltage_limit_peak_V")
+    full = "n/a (evaluate --full)"
+    iron, eff = summary.get("iron_loss_W"), summary.get("efficiency")
+    mech = summary.get("mechanical_loss_W")
+    return [
+        ("current (A peak) / angle γ (deg from d-axis)",
+         f"{_fmt(summary['current_peak_A'])} / {_fmt(summary['current_angle_deg'])}"),
+        ("current density in the slots (A/mm² rms)",
+         _fmt(summary.get("current_density_rms_A_per_mm2"), 3)),
+        ("speed (rpm) / mean torque (N·m)",
+         f"{_fmt(summary.get('speed_rpm'))} / {_fmt(summary['torque_mean_Nm'])}"),
+        ("power T·ω (kW)", _fmt(_kilo(summary.get("power_W")), 3)),
+        ("terminal voltage, phase peak (V)" + (" / limit" if limit else ""),
+         _fmt(summary.get("terminal_voltage_peak_V"))
+         + (f" / {_fmt(limit)}" if limit else "")),
+        ("power factor: with end leakage / 2-D",
+         f"{_fmt(summary['power_factor'], 3)} / {_fmt(summary.get('power_factor_2d'), 3)}"),
+        ("Ld / Lq, 2-D, operating point (mH)",
+         f"{_fmt(_milli(summary['Ld_apparent_H']))} / {_fmt(_milli(summary['Lq_apparent_H']))}"),
+        ("end-winding leakage L_w (mH)", _fmt(_milli(summary.get("end_leakage_H")), 3)),
+        ("Ld / Lq with end leakage (mH)",
+         f"{_fmt(_milli(summary.get('Ld_with_end_leakage_H')))} / "
+         f"{_fmt(_milli(summary.get('Lq_with_end_leakage_H')))}"),
+        ("saliency Ld/Lq, 2-D, operating point", _fmt(summary["saliency_apparent"])),
+        (f"phase resistance at {_fmt(summary.get('copper_temperature_C'), 3)} °C (Ω)",
+         _fmt(summary.get("phase_resistance_Ohm"))),
+        ("copper loss 3/2 R I² (W)", _fmt(summary.get("copper_loss_W"))),
+        ("iron loss (W)" + (" / mechanical (W)" if mech else ""),
+         (_fmt(iron) if iron is not None else full) + (f" / {_fmt(mech)}" if mech else "")),
+        ("efficiency" + (" (mech. loss included)" if mech else " (no mech. loss)"),
+         _fmt(eff, 3) if eff is not None else full),
+    ]
+
+
 def key_figures(summary: dict) -> list[tuple[str, str]]:
-    """(quantity with unit, value) rows of the key figures of a summary."""
+    """(quantity with unit, value) rows of the magnetic key figures and the ripple."""
     avg = summary.get("averaging", {})
     rows = [
-        ("rated current (A peak)", _fmt(summary["current_peak_A"])),
-        ("current angle γ (deg from d-axis)", _fmt(summary["current_angle_deg"])),
         ("ψd / ψq, position mean (Wb)",
          f"{_fmt(summary['psi_d_Wb'])} / {_fmt(summary['psi_q_Wb'])}"),
-        ("Ld / Lq at the operating point (mH)",
-         f"{_fmt(_milli(summary['Ld_apparent_H']))} / {_fmt(_milli(summary['Lq_apparent_H']))}"),
-        ("saliency Ld/Lq at the operating point", _fmt(summary["saliency_apparent"])),
-        ("Ld / Lq one axis at a time (mH)",
+        ("Ld / Lq one axis at a time, 2-D (mH)",
          f"{_fmt(_milli(summary['Ld_one_axis_H']))} / {_fmt(_milli(summary['Lq_one_axis_H']))}"),
         (f"mean torque, {avg.get('positions', '?')} positions (N·m)",
          _fmt(summary["torque_mean_Nm"])),
         ("air-gap torque, ripple mean (N·m)", _fmt(summary["torque_maxwell_mean_Nm"])),
-        ("torque ripple, peak to peak (%)", _fmt(summary["torque_ripple_pct"], 3)),
-        ("power factor (R neglected)", _fmt(summary["power_factor"], 3)),
+        ("torque ripple at rated, peak to peak (%)", _fmt(summary["torque_ripple_pct"], 3)),
         ("MTPA at rated current (deg; N·m)",
          f"{_fmt(summary['mtpa_angle_deg'], 3)}; {_fmt(summary['mtpa_torque_Nm'])}"),
     ]
@@ -53,15 +97,19 @@ def key_figures(summary: dict) -> list[tuple[str, str]]:
         rows.append((f"MTPA at {summary['overload_current_peak_A']:g} A (deg; N·m)",
                      f"{_fmt(summary['overload_mtpa_angle_deg'], 3)}; "
                      f"{_fmt(summary['overload_mtpa_torque_Nm'])}"))
-        rows.append((f"torque ripple at {summary['overload_current_peak_A']:g} A MTPA (%)",
+        rows.append((f"torque ripple at {summary['overload_current_peak_A']:g} A MTPA, p-p (%)",
                      _fmt(summary.get("overload_torque_ripple_pct"), 3)))
     if summary.get("skew"):
-        rows.insert(9, ("without skew: torque (N·m); ripple (%)",
+        rows.insert(5, ("without skew: torque (N·m); ripple (%)",
                         f"{_fmt(summary['torque_mean_unskewed_Nm'])}; "
                         f"{_fmt(summary['torque_ripple_unskewed_pct'], 3)}"))
     rows += _flux_density_rows(summary.get("flux_density"))
     rows.append(("mesh: nodes / order", f"{summary['nodes']} / P{summary['element_order']}"))
     return rows
+
+
+def _kilo(value):
+    return None if value is None else value * 1e-3
 
 
 def _milli(value):
@@ -85,13 +133,14 @@ def _flux_density_rows(densities: dict | None) -> list[tuple[str, str]]:
     return rows
 
 
-def _table(ax, rows) -> None:
+def _table(ax, rows, title: str) -> None:
+    """A two-column table filling ``ax`` exactly (no row runs outside it)."""
     ax.axis("off")
+    ax.set_title(title)
     table = ax.table(cellText=[list(r) for r in rows], colLabels=["quantity", "value"],
-                     colWidths=[0.7, 0.3], loc="upper center", cellLoc="left")
+                     colWidths=[0.66, 0.34], cellLoc="left", bbox=[0.0, 0.0, 1.0, 1.0])
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
-    table.scale(1.12, 1.0)
 
 
 def _finish_page(fig, left: float) -> None:
@@ -130,34 +179,42 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
                        envelope=None) -> Path:
     """Write the A4 landscape review sheet of ``evaluation`` to ``path`` (PDF).
 
-    With an ``envelope`` result (:func:`fluxlab.envelope.envelope_study`) a second page
-    shows the operating envelope, losses and rib stress.
+    Page one: the rated point's terminal figures and losses, the magnetic key figures,
+    torque against current angle, saturation, the field; page two: the torque ripple at
+    rated and overload (when computed). With an ``envelope`` result
+    (:func:`fluxlab.envelope.envelope_study`) its page follows, and the rated point's iron
+    loss and efficiency fill their rows.
     """
     import matplotlib.pyplot as plt
     from matplotlib.backends.backend_pdf import PdfPages
 
-    spec, summary = evaluation.spec, evaluation.summary
+    spec = evaluation.spec
+    summary = sheet_summary(evaluation.summary, envelope)
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(2, 3, left=0.05, right=0.96, top=0.86, bottom=0.12,
-                            wspace=0.34, hspace=0.36, width_ratios=[1.0, 1.15, 1.15])
+    grid = fig.add_gridspec(2, 3, left=0.05, right=0.97, top=0.84, bottom=0.12,
+                            wspace=0.25, hspace=0.34, width_ratios=[0.85, 1.25, 1.25],
+                            height_ratios=[1.1, 1.0])
     fig.suptitle(f"fluxlab review sheet: {spec.name}", fontsize=14, x=0.05, ha="left")
-    fig.text(0.05, 0.915,
+    fig.text(0.05, 0.89,
              f"{spec.poles} poles, {spec.stator.slots} slots, {len(spec.rotor.barriers)} "
              f"{spec.rotor.barrier_shape} barrier(s) per pole, stack {spec.stack_length * 1e3:g} "
              f"mm, rotor steel {spec.materials['rotor'].name}"
              + (f", skew {summary['skew']['angle_deg']:.3g} deg in {summary['skew']['slices']} "
                 "slices" if summary.get("skew") else "") + ".   fluxlab "
              f"{summary['fluxlab_version']}, {datetime.date.today().isoformat()}\n"
-             "Currents are peak phase amperes; current angle from the d-axis (least reluctance); "
-             "saliency ratio = Ld/Lq; amplitude-invariant Park transform; counter-clockwise "
-             "positive.", fontsize=8, va="bottom")
+             "Conventions: currents and voltages are peak phase values; current angle from the "
+             "d-axis (least reluctance); saliency ratio = Ld/Lq; amplitude-invariant Park "
+             "transform;\ncounter-clockwise positive; 2-D figures leave out the end winding, "
+             "terminal figures (voltage, power factor) include its leakage.", fontsize=7.5,
+             va="bottom")
     ax = fig.add_subplot(grid[0, 0])
     plot_outline(spec, ax=ax, full=True)
     ax.set_title("cross-section (mm)", fontsize=9)
-    _table(fig.add_subplot(grid[0, 1]), key_figures(summary))
+    _table(fig.add_subplot(grid[0, 1]), rated_figures(summary),
+           f"Rated point at {_fmt(summary.get('speed_rpm'))} rpm")
+    _table(fig.add_subplot(grid[0, 2]), key_figures(summary),
+           "Magnetic figures, ripple, flux density")
     curves = [
-        (evaluation.torque_vs_position, plot_torque_vs_position, grid[0, 2],
-         "Torque vs rotor position at the rated point"),
         (evaluation.torque_vs_angle or None, plot_torque_vs_angle, grid[1, 0],
          "Torque vs current angle (position means)"),
         (evaluation.inductances, plot_inductances, grid[1, 1],
@@ -165,9 +222,7 @@ def write_review_sheet(evaluation: Evaluation, path: Path, field_solution=None,
     ]
     for data, plot, cell, title in curves:
         if data is not None:
-            extra = ({"unskewed": evaluation.torque_vs_position_unskewed}
-                     if plot is plot_torque_vs_position else {})
-            plot(data, ax=fig.add_subplot(cell), **extra).set_title(title)
+            plot(data, ax=fig.add_subplot(cell)).set_title(title)
     if field_solution is not None:
         plot_field(evaluation.model, field_solution, ax=fig.add_subplot(grid[1, 2])).set_title(
             "Field at the rated point, position 0"

@@ -235,6 +235,9 @@ WINDING_KEYS = (
     Key("turns_per_coil", int, low=1, high=10_000),
     Key("parallel_paths", int, default=1, low=1),
     Key("fill_factor", float, default=0.45, low=0, low_open=True, high=0.8),
+    # the end-winding leakage inductance of a phase, replacing the estimate of
+    # fluxlab.machine.end_winding; 0 leaves it out
+    Key("end_leakage_mH", float, default=None, low=0, high=1e6),
 )
 ROTOR_KEYS = (
     Key("shaft_diameter_mm", float, scale=MM, low=0, low_open=True),
@@ -293,6 +296,9 @@ DRIVE_KEYS = (
     Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
     Key("flux_map_positions", int, default=None, low=1, high=72),
     Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
+    # friction and windage at the top speed, scaled by (n / n_max)^2 below it
+    # (fluxlab.envelope.efficiency); 0 leaves them out
+    Key("mechanical_loss_at_max_speed_W", float, default=0.0, low=0, high=1e9),
 )
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
 #: ``[skew]`` (optional): the rotor's skew over the stack, modelled by slices.

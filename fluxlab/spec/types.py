@@ -62,13 +62,18 @@ class StatorSpec:
 
 @dataclass(frozen=True)
 class WindingSpec:
-    """Distributed three-phase winding."""
+    """Distributed three-phase winding.
+
+    ``end_leakage_mH``: the end-winding leakage inductance of a phase, mH, as the file gives
+    it (None: estimated, see :mod:`fluxlab.machine.end_winding`).
+    """
 
     layers: int
     coil_pitch_slots: int
     turns_per_coil: int
     parallel_paths: int
     fill_factor: float
+    end_leakage_mH: float | None = None
 
 
 @dataclass(frozen=True)
@@ -130,7 +135,8 @@ class DriveSpec:
     ``flux_map_points`` per axis, from 0 to ``flux_map_max_current_peak_A`` (None: the current
     limit), averaged over ``flux_map_positions`` rotor positions (None: the machine's
     averaging count, see :mod:`fluxlab.studies.averaging`); ``rib_safety_factor`` on the
-    rotor steel's yield strength.
+    rotor steel's yield strength; ``mechanical_loss_at_max_speed_W``: friction and windage
+    at ``max_speed_rpm``, W (see :mod:`fluxlab.envelope.efficiency`).
     """
 
     dc_link_voltage_V: float = 565.0
@@ -143,6 +149,7 @@ class DriveSpec:
     flux_map_max_current_peak_A: float | None = None
     flux_map_positions: int | None = None
     rib_safety_factor: float = 1.5
+    mechanical_loss_at_max_speed_W: float = 0.0
 
 
 @dataclass(frozen=True)

@@ -19,6 +19,7 @@ import numpy as np
 
 from fluxlab.fem.solver import linear_backend
 from fluxlab.machine.model import MachineModel, build_model
+from fluxlab.machine.terminal import terminal_figures
 from fluxlab.mesh.machine_mesh import build_mesh
 from fluxlab.spec.machine_file import without_skew
 from fluxlab.spec.types import MachineSpec
@@ -56,8 +57,10 @@ __all__ = ["StudySettings", "Evaluation", "evaluate", "averaging_note", "CONVENT
 log = logging.getLogger(__name__)
 
 #: Conventions stated in every summary.
-CONVENTIONS = ("peak phase currents; amplitude-invariant Park transform; current angle from "
-               "the d-axis; d-axis = least reluctance; saliency = Ld/Lq")
+CONVENTIONS = ("peak phase currents and voltages; amplitude-invariant Park transform; current "
+               "angle from the d-axis; d-axis = least reluctance; saliency = Ld/Lq; "
+               "*_apparent: 2-D model, no end winding; *_with_end_leakage, power_factor, "
+               "terminal voltage: with the end-winding leakage")
 
 
 @dataclass(frozen=True)
@@ -181,7 +184,8 @@ def _summary(evaluation_parts: dict, settings: StudySettings, elapsed: float) ->
         "torque_mean_Nm": rated.torque_Nm,
         "torque_maxwell_mean_Nm": ripple.torque_maxwell_mean_Nm if ripple else None,
         "torque_ripple_pct": ripple.ripple_pct if ripple else None,
-        "power_factor": rated.power_factor,
+        **terminal_figures(spec, rated.psi_d, rated.psi_q, rated.i_d, rated.i_q,
+                           rated.torque_Nm, spec.operating.speed_rpm),
         "mtpa_angle_deg": _get(rated_study, "mtpa_angle_deg"),
         "mtpa_torque_Nm": _get(rated_study, "mtpa_torque_Nm"),
         "overload_current_peak_A": spec.operating.overload_current_peak_A,

@@ -88,16 +88,17 @@ def plot_torque_vs_angle(results: list[TorqueVsAngle], ax=None):
     """Position-averaged torque versus current angle for each current, the MTPA marked."""
     ax = _axes(ax)
     for r in results:
+        # one legend row per current, the MTPA star in its label: narrow enough for a sheet
         line, = ax.plot(r.current_angle_deg, r.torque_Nm, "o-", ms=3,
-                        label=f"{r.current_peak_A:g} A peak")
-        ax.plot([r.mtpa_angle_deg], [r.mtpa_torque_Nm], "*", ms=11, color=line.get_color(),
-                label=f"MTPA {r.mtpa_angle_deg:.1f}°, {r.mtpa_torque_Nm:.1f} N·m")
+                        label=f"{r.current_peak_A:g} A peak; MTPA (★) {r.mtpa_angle_deg:.1f}°, "
+                              f"{r.mtpa_torque_Nm:.1f} N·m")
+        ax.plot([r.mtpa_angle_deg], [r.mtpa_torque_Nm], "*", ms=11, color=line.get_color())
     ax.set_xlabel("current angle γ (deg from d-axis)")
     ax.set_ylabel("torque, mean over rotor positions (N·m)")
     ax.set_xlim(0, 90)
     ax.set_ylim(0, 1.45 * max(r.mtpa_torque_Nm for r in results))  # legend room above
     ax.set_title("Torque vs current angle (" + _NOTE + ")", fontsize=9)
-    ax.legend(fontsize=6.5, loc="upper left", ncol=2, handlelength=1.2, columnspacing=0.8)
+    ax.legend(fontsize=6.5, loc="upper left", handlelength=1.5)
     return ax
 
 

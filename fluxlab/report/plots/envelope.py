@@ -12,8 +12,10 @@ import numpy as np
 
 from fluxlab.envelope.interp import FluxInterpolator
 from fluxlab.report.figures import caution_line
+from fluxlab.report.plots.efficiency import plot_efficiency_map
 
 __all__ = [
+    "side_axes",
     "plot_flux_map_contours",
     "plot_cross_saturation",
     "plot_mtpa",
@@ -22,6 +24,13 @@ __all__ = [
     "envelope_page_figure",
     "add_envelope_page",
 ]
+
+
+def side_axes(ax, size: str = "5%", pad: float = 0.08):
+    """An axes for a colour bar at the right of ``ax``, exactly as tall as its drawn box."""
+    from mpl_toolkits.axes_grid1 import make_axes_locatable
+
+    return make_axes_locatable(ax).append_axes("right", size=size, pad=pad)
 
 
 def _axes(n, axes, figsize):
@@ -83,7 +92,9 @@ def plot_mtpa(fmap, mtpa, ax=None, current_limit_peak_A: float | None = None,
     lines = ax.contour(i_d, i_q, torque.T, colors="white", linewidths=0.6,
                        levels=np.linspace(top / 7, top, 6, endpoint=False))
     ax.clabel(lines, fmt="%.0f", fontsize=7)
-    ax.figure.colorbar(filled, ax=ax, shrink=0.85, label="torque 3/2 p (ψd iq − ψq id) (N·m)")
+    ax.set_aspect("equal")
+    ax.figure.colorbar(filled, cax=side_axes(ax),
+                       label="torque 3/2 p (ψd iq − ψq id) (N·m)")
     ax.plot(mtpa.i_d_A, mtpa.i_q_A, "c-o", ms=3, label="MTPA trajectory")
     if current_limit_peak_A:
         t = np.linspace(0, math.pi / 2, 100)
@@ -193,7 +204,8 @@ def _key_rows(result) -> list[tuple[str, str]]:
          f"{r['current_peak_A']:.4g}, {r['current_angle_deg']:.1f}, {r['speed_rpm']:.4g}"),
         ("rated torque (N·m) / power (kW)", f"{r['torque_Nm']:.4g} / {r['power_W'] / 1e3:.3g}"),
         ("copper / iron loss (W)", f"{r['copper_loss_W']:.4g} / {r['iron_loss_W']:.4g}"),
-        ("efficiency (no mech. loss)", f"{r['efficiency']:.3f}"),
+        ("efficiency (mechanical loss {:.0f} W)".format(r.get("mechanical_loss_W", 0.0)),
+         f"{r['efficiency']:.3f}"),
         ("rib stress / allowed at top speed (MPa)",
          f"{s['rib_max_stress_MPa']:.3g} / {s['rib_allowed_stress_MPa']:.3g}"
          if s["rib_max_stress_MPa"] is not None else "no barriers"),
@@ -206,7 +218,10 @@ def envelope_page_figure(result):
     import matplotlib.pyplot as plt
 
     fig = plt.figure(figsize=(11.69, 8.27))
-    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86, bottom=0.15,
+    warn = [*result.ribs.warnings, *result.summary.get("grid_warnings", [])]
+    # warnings take lines above the caution: the plots move up for them
+    grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86,
+                            bottom=0.15 + 0.035 * len(warn),
                             wspace=0.42, hspace=0.5, width_ratios=[1.1, 1.1, 1.0])
     fig.suptitle(f"Operating envelope: {result.spec.name}", fontsize=14, x=0.06, y=0.97,
                  ha="left")
@@ -214,7 +229,7 @@ def envelope_page_figure(result):
              "V_max = m V_dc / √3 (space-vector modulation); flux maps from the 2-D FEM.",
              fontsize=8)
     plot_mtpa(result.flux_map, result.mtpa, ax=fig.add_subplot(grid[0:2, 0]),
-              current_limit_peak_A=result.settings.current_limit_peak_A, legend_below=False)
+              current_limit_peak_A=result.settings.current_limit_peak_A)  # legend below
     env_axes = [fig.add_subplot(grid[k, 1]) for k in range(3)]
     plot_envelope(result.envelope, axes=env_axes)
     for ax in env_axes[:2]:
@@ -222,6 +237,10 @@ def envelope_page_figure(result):
     plot_losses(result.iron_loss, result.rated_point["copper_loss_W"],
                 ax=fig.add_subplot(grid[2, 0]),
                 title=f"Losses at the rated point, {result.rated_point['speed_rpm']:g} rpm")
+    if result.efficiency_map is not None:
+        ax = plot_efficiency_map(result.efficiency_map, ax=fig.add_subplot(grid[2, 2]),
+                                 rated=(result.rated_point["speed_rpm"],
+                                        result.rated_point["torque_Nm"]), compact=True)
     ax = fig.add_subplot(grid[0:2, 2])
     ax.axis("off")
     table = ax.table(cellText=[list(r) for r in _key_rows(result)],
@@ -229,9 +248,10 @@ def envelope_page_figure(result):
                      bbox=[-0.05, 0.1, 1.1, 0.9], cellLoc="left")
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
-    warn = list(result.ribs.warnings)
-    text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate; "
-                        "efficiency without mechanical losses.")
+    text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate, "
+                        "scaled to frequency and flux level over the efficiency map; "
+                        "mechanical losses only as drive.mechanical_loss_at_max_speed_W gives "
+                        "them.")
     fig.text(0.06, 0.03, ("WARNING: " + " ".join(warn) + "\n" if warn else "") + text,
              fontsize=7.5, wrap=True, va="bottom", color="darkred" if warn else "black")
     for a in fig.axes:

@@ -1,4 +1,5 @@
-"""Phase resistance of the stator winding from the slot geometry and the winding data."""
+"""Phase resistance of the stator winding from the slot geometry and the winding data, and
+the copper loss it gives."""
 
 from __future__ import annotations
 
@@ -7,15 +8,19 @@ from dataclasses import dataclass
 
 from fluxlab.geometry.csg import to_shapely
 from fluxlab.geometry.stator import slot_shapes
+from fluxlab.machine.end_winding import end_winding_length_estimate
 from fluxlab.machine.winding import series_turns_per_phase, winding_layout
 from fluxlab.spec.types import MachineSpec
 
 __all__ = [
+    "COPPER_DENSITY_KG_M3",
+    "copper_mass",
+    "current_density_rms",
     "COPPER_RESISTIVITY_20C_OHM_M",
     "COPPER_TEMPERATURE_COEFFICIENT_PER_K",
     "PhaseResistance",
+    "copper_loss",
     "copper_resistivity",
-    "end_winding_length_estimate",
     "phase_resistance",
 ]
 
@@ -25,6 +30,8 @@ COPPER_RESISTIVITY_20C_OHM_M = 1.7241e-8
 #: Temperature coefficient of annealed copper's resistance at 20 C, 1/K (IEC 60028, from
 #: memory).
 COPPER_TEMPERATURE_COEFFICIENT_PER_K = 0.00393
+#: Density of copper, kg/m^3 (8.89-8.96 g/cm^3 in handbooks; from memory).
+COPPER_DENSITY_KG_M3 = 8900.0
 
 
 @dataclass(frozen=True)
@@ -56,20 +63,6 @@ def copper_resistivity(temperature_C: float) -> float:
         1.0 + COPPER_TEMPERATURE_COEFFICIENT_PER_K * (temperature_C - 20.0))
 
 
-def end_winding_length_estimate(spec: MachineSpec) -> float:
-    """End-winding length of one coil end, m: 1.2 W + 0.05 m.
-
-    Half of the average turn's end-winding length 2.4 W + 0.1 m for low-voltage machines
-    with round-wire coils, W the coil span at mid-slot (J. Pyrhonen, T. Jokinen,
-    V. Hrabovcova, "Design of Rotating Electrical Machines", Wiley 2008, ch. 9 on the
-    resistance of windings; formula from memory).
-    """
-    st = spec.stator
-    mid_slot_diameter = st.bore_diameter + st.slot_depth
-    span = spec.winding.coil_pitch_slots * math.pi * mid_slot_diameter / st.slots
-    return 1.2 * span + 0.05
-
-
 def phase_resistance(
     spec: MachineSpec,
     temperature_C: float | None = None,
@@ -97,3 +90,19 @@ def phase_resistance(
     resistance = float(rho * turns * turn_length / (w.parallel_paths * conductor))
     return PhaseResistance(resistance, temperature, rho, layer_area, conductor, end,
                            given is None, turn_length, float(turns), w.parallel_paths)
+
+
+def copper_loss(resistance_Ohm: float, current_peak_A: float) -> float:
+    """Copper loss of the three phases, W: 3/2 R I^2 with I the peak phase current."""
+    return 1.5 * resistance_Ohm * current_peak_A**2
+
+
+def copper_mass(res: PhaseResistance) -> float:
+    """Copper mass of the three phases, kg: 3 N_s a A_c l_turn times the density."""
+    volume = 3 * res.series_turns * res.parallel_paths * res.conductor_area_m2 * res.turn_length_m
+    return COPPER_DENSITY_KG_M3 * volume
+
+
+def current_density_rms(res: PhaseResistance, current_peak_A: float) -> float:
+    """Current density in the conductors, A/m^2 rms: (I / sqrt 2) / (a A_c)."""
+    return current_peak_A / math.sqrt(2) / (res.parallel_paths * res.conductor_area_m2)
