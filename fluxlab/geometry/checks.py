@@ -9,8 +9,9 @@ from __future__ import annotations
 import math
 
 from fluxlab.errors import GeometryError
-from fluxlab.geometry.csg import disk, to_shapely
-from fluxlab.geometry.rotor import barrier_shape
+from fluxlab.geometry.csg import cut, disk, to_shapely
+from fluxlab.geometry.fillets import fillet_problems
+from fluxlab.geometry.rotor import barrier_shape, post_shape
 from fluxlab.geometry.stator import slot_outline
 from fluxlab.machine.winding import machine_symmetry
 from fluxlab.spec.types import MachineSpec
@@ -114,7 +115,7 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
     d_axis = LineString([(0, 0), (3 * r_rotor * math.cos(half_pole),
                                   3 * r_rotor * math.sin(half_pole))])
     shaft = to_shapely(disk(0.0, 0.0, rotor.shaft_diameter / 2))
-    shapes = []
+    shapes, fillets = [], []
     for i, b in enumerate(rotor.barriers):
         key = f"rotor.barriers[{i}]"
         if b.depth - b.width / 2 < rotor.tangential_rib - _TOL:
@@ -139,6 +140,9 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
         if shape.is_empty or shape.geom_type != "Polygon":
             problems.append(f"{key}: the barrier is not one connected piece; check its values")
             continue
+        post = post_shape(r_rotor, b)
+        air = to_shapely(cut(barrier_shape(rotor, r_rotor, b, key), post)) if post else shape
+        fillets.extend(fillet_problems(rotor, r_rotor, b, key, air))
         clearance = shape.distance(shaft)
         if clearance < rotor.min_steel - _TOL:
             problems.append(
@@ -156,6 +160,7 @@ def _barrier_problems(spec: MachineSpec) -> list[str]:
                 f"the steel between neighbouring poles ({_mm(2 * to_d)} mm) is less than "
                 f"rotor.min_steel_mm = {_mm(rotor.min_steel)}"
             )
+    problems.extend(fillets[:1])  # one key: its first misfit (the narrowest barrier) says it
     for i in range(len(shapes) - 1):
         a, b = shapes[i], shapes[i + 1]
         key = f"rotor.barriers[{i + 1}]"

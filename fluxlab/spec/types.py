@@ -77,6 +77,7 @@ class RotorSpec:
 
     ``rotor_slots_per_pole_pair``: n_r when the file places the barrier ends at the rotor
     slot pitch (their ``end_angle`` resolved from it at load time), else None.
+    ``rib_fillet``: corner radius, m, where a barrier meets its rib and post (0: sharp).
     """
 
     shaft_diameter: float
@@ -86,6 +87,7 @@ class RotorSpec:
     min_steel: float
     barriers: tuple[BarrierSpec, ...]
     rotor_slots_per_pole_pair: int | None = None
+    rib_fillet: float = 0.5e-3
 
 
 @dataclass(frozen=True)
