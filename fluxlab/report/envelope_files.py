@@ -11,6 +11,7 @@ import numpy as np
 from fluxlab.envelope import incremental_inductances, inverse_tables
 from fluxlab.report.figures import save_figure
 from fluxlab.report.plots import envelope as pe
+from fluxlab.report.stress_files import write_stress
 from fluxlab.report.tables import write_csv
 
 __all__ = ["envelope_tables", "write_envelope"]
@@ -75,7 +76,7 @@ def write_envelope(result, out: Path) -> list[Path]:
     written = [write_csv(out / f"{stem}.csv", cols)
                for stem, cols in envelope_tables(result).items()]
     summary = {**result.summary, "rib_warnings": list(result.ribs.warnings),
-               "timings_s": result.timings_s}
+               "stress_warnings": list(result.stress_warnings), "timings_s": result.timings_s}
     (out / "envelope_summary.json").write_text(json.dumps(summary, indent=2, default=float))
     written.append(out / "envelope_summary.json")
     figures = [
@@ -101,4 +102,6 @@ def write_envelope(result, out: Path) -> list[Path]:
         written += save_figure(fig, out, stem, ("png", "svg"))
     pe.add_envelope_page(out / "envelope.pdf", result)
     written.append(out / "envelope.pdf")
+    if result.stress is not None:
+        written += write_stress(result.stress, result.settings.max_speed_rpm, out)
     return written

@@ -294,6 +294,8 @@ DRIVE_KEYS = (
     Key("flux_map_max_current_peak_A", float, default=None, low=0, low_open=True),
     Key("flux_map_positions", int, default=None, low=1, high=72),
     Key("rib_safety_factor", float, default=1.5, low=1.0, high=20),
+    # the rotor stress is also checked here when given (an overspeed test speed, for example)
+    Key("overspeed_rpm", float, default=None, low=0, low_open=True, high=500000),
 )
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
 #: ``[skew]`` (optional): the rotor's skew over the stack, modelled by slices.

@@ -130,7 +130,8 @@ class DriveSpec:
     ``flux_map_points`` per axis, from 0 to ``flux_map_max_current_peak_A`` (None: the current
     limit), averaged over ``flux_map_positions`` rotor positions (None: the machine's
     averaging count, see :mod:`fluxlab.studies.averaging`); ``rib_safety_factor`` on the
-    rotor steel's yield strength.
+    rotor steel's yield strength; ``overspeed_rpm``: a speed above the top speed at which the
+    rotor stress is checked too (None: not checked).
     """
 
     dc_link_voltage_V: float = 565.0
@@ -143,6 +144,7 @@ class DriveSpec:
     flux_map_max_current_peak_A: float | None = None
     flux_map_positions: int | None = None
     rib_safety_factor: float = 1.5
+    overspeed_rpm: float | None = None
 
 
 @dataclass(frozen=True)

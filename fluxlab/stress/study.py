@@ -27,6 +27,7 @@ __all__ = [
     "RotorStress",
     "rotor_mechanics",
     "rotor_stress",
+    "speed_checks",
     "stress_summary",
 ]
 
@@ -147,3 +148,30 @@ def stress_summary(result: RotorStress, speed_rpm: float) -> dict:
         "caution": STRESS_CAUTION,
     })
     return out
+
+
+def speed_checks(result: RotorStress, speeds: dict[str, float], required: float
+                 ) -> tuple[dict, list[str]]:
+    """The peak at each named speed (``{"top_speed": 3000.0, "overspeed": 3600.0}``, rpm)
+    against yield / ``required`` (a safety factor >= 1).
+
+    Returns the JSON-able figures (MPa, rpm) and one warning per speed where the safety
+    factor falls below ``required``.
+    """
+    m = result.mechanics
+    allowed = m.yield_strength_Pa / required
+    out: dict = {"method": "plane-stress finite elements, peak von Mises (fluxlab stress)",
+                 "required_safety_factor": required, "allowed_MPa": allowed / 1e6,
+                 "yield_speed_rpm": result.yield_speed_rpm(), "bore": BORE_NOTE,
+                 "caution": STRESS_CAUTION}
+    warnings = []
+    for name, speed in speeds.items():
+        peak = result.peak_Pa(speed)
+        factor = m.yield_strength_Pa / peak if peak > 0 else None
+        out[name] = {"speed_rpm": speed, "von_mises_max_MPa": peak / 1e6,
+                     "safety_factor": factor}
+        if factor is not None and factor < required:
+            warnings.append(f"rotor stress at {speed:g} rpm ({name.replace('_', ' ')}): peak "
+                            f"von Mises {peak / 1e6:.0f} MPa, safety factor {factor:.2f} on "
+                            f"yield, below the required {required:g}")
+    return out, warnings

@@ -194,10 +194,18 @@ def _key_rows(result) -> list[tuple[str, str]]:
         ("rated torque (N·m) / power (kW)", f"{r['torque_Nm']:.4g} / {r['power_W'] / 1e3:.3g}"),
         ("copper / iron loss (W)", f"{r['copper_loss_W']:.4g} / {r['iron_loss_W']:.4g}"),
         ("efficiency (no mech. loss)", f"{r['efficiency']:.3f}"),
-        ("rib stress / allowed at top speed (MPa)",
-         f"{s['rib_max_stress_MPa']:.3g} / {s['rib_allowed_stress_MPa']:.3g}"
-         if s["rib_max_stress_MPa"] is not None else "no barriers"),
+        ("rib mean-stress estimate (cross-check, MPa)",
+         f"{s['rib_max_stress_MPa']:.3g}" if s["rib_max_stress_MPa"] is not None
+         else "no barriers"),
     ]
+    stress = s.get("rotor_stress", {})
+    for name in ("top_speed", "overspeed"):
+        if name in stress:
+            c = stress[name]
+            rows.append((f"rotor FEM peak / allowed at {c['speed_rpm']:g} rpm (MPa)",
+                         f"{c['von_mises_max_MPa']:.3g} / {stress['allowed_MPa']:.3g}"))
+    if "skipped" in stress:
+        rows.append(("rotor FEM stress", "skipped: no elastic data"))
     return rows
 
 
@@ -229,9 +237,10 @@ def envelope_page_figure(result):
                      bbox=[-0.05, 0.1, 1.1, 0.9], cellLoc="left")
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
-    warn = list(result.ribs.warnings)
-    text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate; "
-                        "efficiency without mechanical losses.")
+    warn = list(result.stress_warnings if result.stress is not None else result.ribs.warnings)
+    stress_caution = result.summary.get("rotor_stress", {}).get("caution", "")
+    text = caution_line(result.ribs.caution, stress_caution, "Iron loss: harmonic "
+                        "loss-separation estimate; efficiency without mechanical losses.")
     fig.text(0.06, 0.03, ("WARNING: " + " ".join(warn) + "\n" if warn else "") + text,
              fontsize=7.5, wrap=True, va="bottom", color="darkred" if warn else "black")
     for a in fig.axes:
