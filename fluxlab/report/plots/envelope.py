@@ -194,7 +194,7 @@ def _key_rows(result) -> list[tuple[str, str]]:
         ("rated torque (N·m) / power (kW)", f"{r['torque_Nm']:.4g} / {r['power_W'] / 1e3:.3g}"),
         ("copper / iron loss (W)", f"{r['copper_loss_W']:.4g} / {r['iron_loss_W']:.4g}"),
         ("efficiency (no mech. loss)", f"{r['efficiency']:.3f}"),
-        ("rib mean-stress estimate (cross-check, MPa)",
+        ("rib mean estimate, top speed (MPa)",
          f"{s['rib_max_stress_MPa']:.3g}" if s["rib_max_stress_MPa"] is not None
          else "no barriers"),
     ]
@@ -202,7 +202,7 @@ def _key_rows(result) -> list[tuple[str, str]]:
     for name in ("top_speed", "overspeed"):
         if name in stress:
             c = stress[name]
-            rows.append((f"rotor FEM peak / allowed at {c['speed_rpm']:g} rpm (MPa)",
+            rows.append((f"FEM peak / allowed, {c['speed_rpm']:g} rpm (MPa)",
                          f"{c['von_mises_max_MPa']:.3g} / {stress['allowed_MPa']:.3g}"))
     if "skipped" in stress:
         rows.append(("rotor FEM stress", "skipped: no elastic data"))
