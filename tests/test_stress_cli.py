@@ -71,6 +71,15 @@ def test_a_fillet_too_large_is_one_line_naming_the_key(tmp_path, capsys):
     assert "rotor.rib_fillet_mm = 2: too large for rotor.barriers[0]" in _error_line(capsys)
 
 
+def test_sharp_corners_are_refused_for_a_stress_run(tmp_path, capsys):
+    # a re-entrant corner has no finite elastic peak (Williams' corner singularity)
+    machine = tmp_path / "m.toml"
+    machine.write_text(DEMO.read_text().replace("min_steel_mm = 2.0",
+                                                "min_steel_mm = 2.0\nrib_fillet_mm = 0.0"))
+    assert main(["stress", str(machine), "--out", str(tmp_path / "o")]) == 1
+    assert "rotor.rib_fillet_mm = 0: sharp barrier corners" in _error_line(capsys)
+
+
 def test_no_speed_means_the_drive_top_speed():
     spec = load_machine(DEMO)
     assert math.isclose(speed_of(Namespace(speed_rpm=None), spec), 3000.0)  # drive.max_speed

@@ -57,3 +57,9 @@ def test_a_fillet_too_large_for_the_barrier_is_one_line_naming_the_key(value):
 def test_a_negative_fillet_is_refused():
     with pytest.raises(SpecError, match=r"rotor.rib_fillet_mm = -0.5: must be at least 0"):
         replace_path(load_machine(GEOMETRIES / MACHINES[0]), "rotor.rib_fillet_mm", -0.5)
+
+
+def test_a_fillet_below_a_tenth_of_a_millimetre_is_refused():
+    with pytest.raises(SpecError, match=r"rotor.rib_fillet_mm = 0.05: must be 0 \(sharp "
+                                        r"corners\) or at least 0.1 mm"):
+        replace_path(load_machine(GEOMETRIES / MACHINES[0]), "rotor.rib_fillet_mm", 0.05)

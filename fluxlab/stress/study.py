@@ -115,8 +115,19 @@ def _surface_growth(field: UnitSpeedField) -> float:
 def rotor_stress(spec: MachineSpec, *, local: float | None = None, bulk: float | None = None,
                  full: bool = False) -> RotorStress:
     """Mesh the lamination (:func:`~fluxlab.stress.mesh.stress_mesh`, same options) and
-    solve it once; read any speed from the result."""
+    solve it once; read any speed from the result.
+
+    Raises
+    ------
+    SpecError
+        When the rotor steel lacks elastic data or yield strength, or the barrier corners are
+        sharp (``rotor.rib_fillet_mm = 0``), naming the key.
+    """
     mechanics = rotor_mechanics(spec)
+    if spec.rotor.barriers and spec.rotor.rib_fillet <= 0:
+        raise SpecError("rotor.rib_fillet_mm = 0: sharp barrier corners have no finite "
+                        "elastic stress peak (it grows without bound as the mesh is refined); "
+                        "give the corner radius of the punching, at least 0.1 mm")
     sm = stress_mesh(spec, local=local, bulk=bulk, full=full)
     field = solve_unit_speed(sm, mechanics.density_kg_m3, mechanics.youngs_modulus_Pa,
                              mechanics.poisson_ratio)
