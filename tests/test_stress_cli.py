@@ -63,19 +63,23 @@ def test_a_csv_steel_without_elastic_constants_is_named(tmp_path, capsys):
     assert "poisson_ratio" not in line and "yield" not in line
 
 
-def test_a_fillet_too_large_is_one_line_naming_the_key(tmp_path, capsys):
+def _with_fillet(tmp_path, fillet_mm: float):
+    """The demo with ``rotor.rib_fillet_mm`` set, written to a file in ``tmp_path``."""
     machine = tmp_path / "m.toml"
-    machine.write_text(DEMO.read_text().replace("min_steel_mm = 2.0",
-                                                "min_steel_mm = 2.0\nrib_fillet_mm = 2.0"))
+    machine.write_text(DEMO.read_text().replace(
+        "min_steel_mm = 2.0", f"min_steel_mm = 2.0\nrib_fillet_mm = {fillet_mm}"))
+    return machine
+
+
+def test_a_fillet_too_large_is_one_line_naming_the_key(tmp_path, capsys):
+    machine = _with_fillet(tmp_path, 2.0)
     assert main(["stress", str(machine), "--out", str(tmp_path / "o")]) == 1
     assert "rotor.rib_fillet_mm = 2: too large for rotor.barriers[0]" in _error_line(capsys)
 
 
 def test_sharp_corners_are_refused_for_a_stress_run(tmp_path, capsys):
     # a re-entrant corner has no finite elastic peak (Williams' corner singularity)
-    machine = tmp_path / "m.toml"
-    machine.write_text(DEMO.read_text().replace("min_steel_mm = 2.0",
-                                                "min_steel_mm = 2.0\nrib_fillet_mm = 0.0"))
+    machine = _with_fillet(tmp_path, 0.0)
     assert main(["stress", str(machine), "--out", str(tmp_path / "o")]) == 1
     assert "rotor.rib_fillet_mm = 0: sharp barrier corners" in _error_line(capsys)
 

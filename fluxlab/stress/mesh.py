@@ -20,6 +20,7 @@ from fluxlab.geometry.csg import annular_sector, cut, disk, rotate
 from fluxlab.geometry.fillets import barrier_air, barrier_fillets
 from fluxlab.geometry.rotor import barrier_placement, opening_angles
 from fluxlab.mesh.gmsh_part import PartSizes, mesh_part
+from fluxlab.mesh.machine_mesh import facet_indices
 from fluxlab.spec.types import MachineSpec
 
 __all__ = ["StressMesh", "local_size", "stress_mesh"]
@@ -86,16 +87,6 @@ def _regions(spec: MachineSpec, angle: float, poles: int) -> list:
     return regions
 
 
-def _facets_at(mesh: MeshTri, pairs: np.ndarray) -> np.ndarray:
-    """Facet indices of node pairs (every pair is a facet of the mesh)."""
-    n = mesh.p.shape[1]
-    facets = np.sort(mesh.facets, axis=0)
-    keys = facets[0].astype(np.int64) * n + facets[1]
-    order = np.argsort(keys)
-    pairs = np.sort(pairs, axis=1)
-    return order[np.searchsorted(keys[order], pairs[:, 0].astype(np.int64) * n + pairs[:, 1])]
-
-
 def stress_mesh(spec: MachineSpec, *, local: float | None = None, bulk: float | None = None,
                 full: bool = False) -> StressMesh:
     """Mesh the rotor lamination (steel only) of one pole pitch, or all of it.
@@ -133,6 +124,6 @@ def stress_mesh(spec: MachineSpec, *, local: float | None = None, bulk: float | 
                    np.ascontiguousarray(renumber[triangles].T))
     names = {"surface": "sliding", "bore": "outer", "edge_start": "edge_start",
              "edge_end": "edge_end"}
-    boundaries = {ours: _facets_at(mesh, renumber[part.lines[theirs]])
+    boundaries = {ours: facet_indices(mesh, renumber[part.lines[theirs]])
                   for ours, theirs in names.items() if len(part.lines[theirs])}
     return StressMesh(mesh.with_boundaries(boundaries), angle, spec.poles // poles, h, size)
