@@ -41,9 +41,10 @@ def run(args) -> int:
     written = write_stress(result, speed, Path(args.out))
     output.finish(written)
     s = stress_summary(result, speed)
+    factor = "none at standstill" if s["safety_factor"] is None else f"{s['safety_factor']:.2f}"
     print(f"{spec.name}: peak von Mises {s['von_mises_max_MPa']:.1f} MPa at {speed:g} rpm "
-          f"(yield {s['yield_strength_MPa']:.0f} MPa, safety factor "
-          f"{s['safety_factor']:.2f}, yield reached at {s['yield_speed_rpm']:.0f} rpm); "
+          f"(yield {s['yield_strength_MPa']:.0f} MPa, safety factor {factor}, yield reached "
+          f"at {s['yield_speed_rpm']:.0f} rpm); "
           f"radial growth {s['radial_growth_max_mm'] * 1e3:.1f} um "
           f"({100 * s['radial_growth_airgap_share']:.1f} % of the air gap)")
     print(f"note: {STRESS_CAUTION}")
