@@ -40,7 +40,7 @@ def element_zones(spec: MachineSpec, centroids: np.ndarray) -> np.ndarray:
     x, y = r * np.cos(angle), np.abs(r * np.sin(angle))
     zone = np.full(r.size, ZONES.index("flux_guides"))
     r_rib = radius - rotor.tangential_rib
-    core = rotor.shaft_diameter / 2
+    core = radius  # a plain disc: all of it is the core
     for i, b in enumerate(rotor.barriers):
         key = f"rotor.barriers[{i}]"
         inner, _, outer = opening_angles(rotor, radius, b, key)
@@ -53,8 +53,6 @@ def element_zones(spec: MachineSpec, centroids: np.ndarray) -> np.ndarray:
             np.abs(x - place.r_axis) <= b.width / 2 + reach)
         zone[post & (zone == ZONES.index("flux_guides"))] = ZONES.index("posts")
         zone[rib] = ZONES.index("tangential_ribs")
-        core = max(core, place.r_axis - b.width / 2) if i == len(rotor.barriers) - 1 else core
+        core = place.r_axis - b.width / 2  # ends as the deepest barrier's inner edge
     zone[(r < core) & (zone == ZONES.index("flux_guides"))] = ZONES.index("around_bore")
-    if not rotor.barriers:  # a plain disc: all of it is the core
-        zone[:] = ZONES.index("around_bore")
     return zone
