@@ -169,3 +169,8 @@ def test_envelope_command_end_to_end(tmp_path):
     summary = json.loads((out / "envelope_summary.json").read_text())
     assert summary["base_speed_rpm"] > 0 and summary["rated"]["iron_loss_W"] > 0
     assert 0.5 < summary["rated"]["efficiency"] < 1.0
+    # the rotor is checked by the FEM peak, the mean estimate kept as a cross-check
+    fem = summary["rotor_stress"]["top_speed"]
+    assert fem["speed_rpm"] == summary["max_speed_rpm"]
+    assert fem["von_mises_max_MPa"] >= summary["rib_max_stress_MPa"]
+    assert (out / "stress.json").exists() and (out / "stress.png").exists()

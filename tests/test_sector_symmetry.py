@@ -15,7 +15,7 @@ from skfem import MeshTri
 from fluxlab.fem.solver import solve_field
 from fluxlab.machine.model import build_model, current_density, phase_currents
 from fluxlab.machine.post import flux_linkage_abc, machine_energy, torque_maxwell
-from fluxlab.mesh.machine_mesh import MachineMesh, _facet_indices, build_mesh
+from fluxlab.mesh.machine_mesh import MachineMesh, build_mesh, facet_indices
 from fluxlab.spec.machine_file import load_machine, replace_path
 from fluxlab.studies.operating_point import solve_point
 
@@ -73,7 +73,7 @@ def _two_copies(spec, machine: MachineMesh) -> MachineMesh:
         boundaries[f"edge_start_{part}"] = pairs[f"edge_start_{part}"][0]
         boundaries[f"edge_end_{part}"] = pairs[f"edge_end_{part}"][1]
     mesh = mesh.with_subdomains(subdomains).with_boundaries(
-        {k: _facet_indices(mesh, v) for k, v in boundaries.items()})
+        {k: facet_indices(mesh, v) for k, v in boundaries.items()})
     return MachineMesh(mesh, np.concatenate([machine.rotor_element] * 2), 2 * phi,
                        machine.sectors // 2, machine.edge_sign**2, machine.sliding_radius,
                        2 * machine.sliding_divisions)

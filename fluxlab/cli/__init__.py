@@ -36,7 +36,7 @@ from fluxlab.version import __version__
 __all__ = ["main", "option_problem"]
 
 _COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope",
-             "export")
+             "export", "stress")
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -82,6 +82,12 @@ def _positive(value: float) -> None:
         raise ValueError(f"{value!r} must be positive")
 
 
+def _non_negative(value: float) -> None:
+    _finite(value)
+    if not value >= 0:
+        raise ValueError(f"{value!r} must be at least 0")
+
+
 def _option_checks(args) -> list[tuple[str, Callable[[], object]]]:
     """(options, check) pairs for the values of ``args`` a user typed; a check raises
     ValueError on a value it refuses."""
@@ -106,6 +112,8 @@ def _option_checks(args) -> list[tuple[str, Callable[[], object]]]:
                            load_machine(args.machine), map_points=args.points,
                            map_positions=args.positions, map_max_current_A=args.max_current_A,
                            speed_points=args.speed_points, loss_samples=args.loss_samples)))
+    elif args.command == "stress" and args.speed_rpm is not None:
+        checks.append(("--speed-rpm", lambda: _non_negative(args.speed_rpm)))
     elif args.command == "solve":
         checks.append(("--current-A", lambda: _positive(args.current_A)))
         for name in ("current_angle_deg", "position_deg"):

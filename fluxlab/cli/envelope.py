@@ -67,8 +67,18 @@ def run(args) -> int:
     print(f"rated {r['current_peak_A']:g} A at {r['speed_rpm']:g} rpm: {r['torque_Nm']:.1f} "
           f"N·m, copper {r['copper_loss_W']:.0f} W, iron {r['iron_loss_W']:.0f} W, "
           f"efficiency {r['efficiency']:.3f}")
-    for warning in (*result.ribs.warnings, *s["grid_warnings"]):
+    stress = s["rotor_stress"]
+    for name in ("top_speed", "overspeed"):
+        if name in stress:
+            c = stress[name]
+            mean = s["rib_max_stress_MPa"]
+            print(f"rotor stress at {c['speed_rpm']:g} rpm: peak von Mises "
+                  f"{c['von_mises_max_MPa']:.1f} MPa, safety factor {c['safety_factor']:.2f} "
+                  "on yield (finite elements" + (f"; mean rib estimate {mean:.1f} MPa, a "
+                                                 "cross-check)" if mean else ")"))
+    warnings = result.stress_warnings if result.stress is not None else result.ribs.warnings
+    for warning in (*warnings, *s["grid_warnings"]):
         print(f"WARNING: {warning}")
-    print(f"caution: {result.ribs.caution}")
+    print(f"caution: {stress.get('caution', result.ribs.caution)}")
     print(f"wrote {len(written)} files to {args.out}")
     return 0

@@ -19,8 +19,9 @@ import math
 from dataclasses import dataclass
 
 from fluxlab.errors import SpecError
-from fluxlab.geometry.csg import annular_sector, cut, to_shapely
-from fluxlab.geometry.rotor import barrier_shape, post_shape
+from fluxlab.geometry.csg import annular_sector, to_shapely
+from fluxlab.geometry.fillets import barrier_air
+from fluxlab.geometry.rotor import barrier_shape
 from fluxlab.spec.types import MachineSpec
 
 __all__ = ["RIB_CAUTION", "BarrierStress", "RibStress", "outer_steel", "rib_stress"]
@@ -76,10 +77,9 @@ def _pole_shapes(spec: MachineSpec):
     pole = to_shapely(annular_sector(rotor.shaft_diameter / 2, radius, -half, half))
     full, air = [], []
     for i, b in enumerate(rotor.barriers):
-        shape = barrier_shape(rotor, radius, b, f"rotor.barriers[{i}]")
-        post = post_shape(radius, b)
-        full.append(to_shapely(shape))
-        air.append(to_shapely(cut(shape, post) if post is not None else shape))
+        key = f"rotor.barriers[{i}]"
+        full.append(to_shapely(barrier_shape(rotor, radius, b, key)))
+        air.append(to_shapely(barrier_air(rotor, radius, b, key)))  # fillets are steel
     steel = pole
     for a in air:
         steel = steel.difference(a)

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import math
 
-from fluxlab.geometry.csg import Shape, annular_sector, cut, rotate
-from fluxlab.geometry.rotor import barrier_shape, post_shape
+from fluxlab.geometry.csg import Shape, annular_sector, rotate
+from fluxlab.geometry.fillets import barrier_air
 from fluxlab.geometry.stator import slot_shapes
 from fluxlab.machine.winding import machine_symmetry
 from fluxlab.spec.types import MachineSpec
@@ -88,10 +88,7 @@ def rotor_regions(spec: MachineSpec, sector_angle: float) -> list[tuple[str, Sha
     ]
     pole_pitch = 2 * math.pi / spec.poles
     for i, barrier in enumerate(rotor.barriers):
-        shape = barrier_shape(rotor, r_rotor, barrier, f"rotor.barriers[{i}]")
-        post = post_shape(r_rotor, barrier)
-        if post is not None:
-            shape = cut(shape, post)
+        shape = barrier_air(rotor, r_rotor, barrier, f"rotor.barriers[{i}]")
         for j in range(poles_in_sector(spec, sector_angle)):
             regions.append((f"barrier_{i}", rotate(shape, (j + 0.5) * pole_pitch)))
     return regions

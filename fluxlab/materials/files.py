@@ -62,23 +62,27 @@ def material_from_csv(
     *,
     density_kg_m3: float = 7650.0,
     yield_strength_Pa: float = 0.0,
+    youngs_modulus_Pa: float = 0.0,
+    poisson_ratio: float = 0.0,
 ) -> Material:
     """A nonlinear material from a comma-separated file of sheet-steel H (A/m), B (T) pairs.
 
     One header line and ``#`` comment lines are allowed; the name defaults to the file stem.
     The data are checked as in :func:`bh_material`, with the file named in every error.
+    Mechanical values left at 0 are unknown (a stress run refuses them, naming the key).
     """
     path = pathlib.Path(path)
     h, b = _read_bh_csv(path)
     return _bh_material(
-        name or path.stem, h, b, str(path), stacking_factor, density_kg_m3, yield_strength_Pa
+        name or path.stem, h, b, str(path), stacking_factor, density_kg_m3, yield_strength_Pa,
+        youngs_modulus_Pa=youngs_modulus_Pa, poisson_ratio=poisson_ratio,
     )
-
 
 
 _FORMS = {
     "linear_mu_r": {"linear_mu_r", "name"},
-    "bh_csv": {"bh_csv", "name", "stacking_factor", "density_kg_m3", "yield_strength_MPa"},
+    "bh_csv": {"bh_csv", "name", "stacking_factor", "density_kg_m3", "yield_strength_MPa",
+               "youngs_modulus_GPa", "poisson_ratio"},
     "grade": {"grade", "stacking_factor"},
 }
 
@@ -91,7 +95,8 @@ def resolve_material(value: str | Mapping, base_dir: pathlib.Path, key: str) -> 
     value
         ``"air"``; a built-in grade name such as ``"M400-50A"``; or a table with exactly one
         of ``linear_mu_r`` (number), ``bh_csv`` (path, relative to ``base_dir``; optional
-        ``stacking_factor``, ``name``, ``density_kg_m3``, ``yield_strength_MPa``) or
+        ``stacking_factor``, ``name``, ``density_kg_m3``, ``yield_strength_MPa``,
+        ``youngs_modulus_GPa``, ``poisson_ratio``) or
         ``grade`` (optional ``stacking_factor``).
     base_dir
         Directory of the machine file.
@@ -141,4 +146,7 @@ def _resolve_table(value: Mapping, base_dir: pathlib.Path, key: str) -> Material
         k,
         density_kg_m3=_positive_number(value.get("density_kg_m3", 7650.0), f"{key}.density_kg_m3"),
         yield_strength_Pa=1e6 * _number(yield_MPa, f"{key}.yield_strength_MPa"),
+        youngs_modulus_Pa=1e9 * _number(value.get("youngs_modulus_GPa", 0.0),
+                                        f"{key}.youngs_modulus_GPa"),
+        poisson_ratio=_number(value.get("poisson_ratio", 0.0), f"{key}.poisson_ratio"),
     )

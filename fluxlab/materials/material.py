@@ -75,8 +75,8 @@ class Material:
         Iron fraction of the stack length already applied to the tables, in (0, 1].
     density_kg_m3
         Mass density, kg/m^3.
-    yield_strength_Pa
-        Yield strength, Pa; 0 means unknown.
+    yield_strength_Pa, youngs_modulus_Pa, poisson_ratio
+        Yield strength and Young's modulus, Pa, Poisson's ratio; 0 means unknown.
     loss
         Iron-loss coefficients, or None if unknown.
     """
@@ -90,6 +90,8 @@ class Material:
     density_kg_m3: float = 7650.0
     yield_strength_Pa: float = 0.0
     loss: LossCoefficients | None = None
+    youngs_modulus_Pa: float = 0.0
+    poisson_ratio: float = 0.0
     _curve: Curve | None = field(init=False, repr=False, compare=False)
     _fingerprint: bytes = field(init=False, repr=False)  # tables' bytes: equality and hash
 
@@ -97,8 +99,10 @@ class Material:
         where = f"material {self.name!r}"
         _check_fraction(self.stacking_factor, f"{where}: stacking_factor")
         _positive_number(self.density_kg_m3, f"{where}: density_kg_m3")
-        if not _number(self.yield_strength_Pa, f"{where}: yield_strength_Pa") >= 0:
-            raise MaterialError(f"{where}: yield_strength_Pa = {self.yield_strength_Pa} < 0")
+        for name, high in (("yield_strength_Pa", math.inf), ("youngs_modulus_Pa", math.inf),
+                           ("poisson_ratio", 0.5)):  # 0 <= nu < 1/2 for a stable solid
+            if not 0 <= _number(getattr(self, name), f"{where}: {name}") < high:
+                raise MaterialError(f"{where}: {name} = {getattr(self, name)} outside [0, {high})")
         if self.kind == "linear":
             mu_r = _positive_number(self.mu_r, f"{where}: mu_r")
             h = b = np.zeros(0)
@@ -127,8 +131,7 @@ def _number(value: object, where: str) -> float:
 
 
 def _positive_number(value: object, where: str) -> float:
-    x = _number(value, where)
-    if not (math.isfinite(x) and x > 0):
+    if not (math.isfinite(x := _number(value, where)) and x > 0):
         raise MaterialError(f"{where} = {value!r} must be finite and > 0")
     return x
 
@@ -298,13 +301,13 @@ def _bh_material(
     density_kg_m3: float = 7650.0,
     yield_strength_Pa: float = 0.0,
     loss: LossCoefficients | None = None,
+    **elastic: float,
 ) -> Material:
     k = _check_fraction(stacking_factor, f"{where}: stacking_factor")
     h, b = _checked_curve(h, b, where)
     b_stack = k * b + (1.0 - k) * MU0 * h  # B_eff = k B + (1 - k) mu0 H
-    return Material(
-        name, "nonlinear", 0.0, h, b_stack, k, float(density_kg_m3), float(yield_strength_Pa), loss
-    )
+    return Material(name, "nonlinear", 0.0, h, b_stack, k, float(density_kg_m3),
+                    float(yield_strength_Pa), loss, **elastic)
 
 
 def bh_material(
@@ -330,11 +333,7 @@ def bh_material(
         Iron fraction k of the stack, in (0, 1]; the tables hold k B + (1 - k) mu0 H.
     density_kg_m3, yield_strength_Pa, loss
         Mass density (kg/m^3), yield strength (Pa, 0 = unknown), loss coefficients.
-
-    Raises
-    ------
-    MaterialError
-        Naming the material, the offending value and the limit.
+        Raises MaterialError naming the material, the offending value and the limit.
     """
     return _bh_material(
         name, h, b, f"material {name!r}", stacking_factor, density_kg_m3, yield_strength_Pa, loss
@@ -351,7 +350,9 @@ def _builtin(name: str, stacking_factor: float) -> Material:
     h, b = steels.steel_curve(grade)
     where = f"built-in steel {name}"
     density, yield_strength = grade.density_kg_m3, grade.yield_strength_Pa
-    return _bh_material(name, h, b, where, stacking_factor, density, yield_strength, grade.loss)
+    return _bh_material(name, h, b, where, stacking_factor, density, yield_strength, grade.loss,
+                        youngs_modulus_Pa=grade.youngs_modulus_Pa,
+                        poisson_ratio=grade.poisson_ratio)
 
 
 def builtin_material(name: str, stacking_factor: float = 1.0) -> Material:

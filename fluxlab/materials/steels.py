@@ -8,6 +8,9 @@ What is recalled and what is made up, grade by grade:
 - the minimum magnetic polarization at H = 2500, 5000 and 10000 A/m and the conventional
   density are EN 10106 values **from memory** (not checked against the standard's text);
 - the resistivity and the yield strength are typical catalogue values **from memory**;
+- Young's modulus 200 GPa and Poisson's ratio 0.29 are typical of silicon steel sheet in
+  the rolling direction, **from memory** (catalogues give 185-220 GPa, lower across the
+  rolling direction; the 2-D stress model takes the sheet as isotropic);
 - the shape of the magnetization curve away from those three anchor points is *typical,
   not measured*: the polarization follows the closed form of :func:`typical_polarization`,
   whose parameters were fitted once (least squares, then rounded) so that J(300 A/m) sits
@@ -104,6 +107,8 @@ class SteelGrade:
         ``(J1_T, h1_A_m, J2_T, h2_A_m, m)``: parameters of :func:`typical_polarization`.
     hysteresis
         ``(k_h, alpha)`` of the hysteresis term; ``k_e``: excess coefficient.
+    youngs_modulus_Pa, poisson_ratio
+        Typical elastic constants (from memory), Pa and dimensionless.
     """
 
     name: str
@@ -116,6 +121,8 @@ class SteelGrade:
     shape: tuple[float, float, float, float, float]
     hysteresis: tuple[float, float]
     k_e: float
+    youngs_modulus_Pa: float = 200e9  # typical silicon steel sheet, from memory
+    poisson_ratio: float = 0.29  # typical silicon steel sheet, from memory
 
     @property
     def loss(self) -> LossCoefficients:

@@ -59,7 +59,8 @@ def _fragment(regions: list[tuple[str, Shape]]) -> dict[int, str]:
         for dim_tag in to_occ(shape):
             inputs.append(dim_tag)
             owner.append(name)
-    _, pieces = occ.fragment(inputs, [])
+    # OCC's fragment of a single surface returns nothing: it is its own piece
+    pieces = occ.fragment(inputs, [])[1] if len(inputs) > 1 else [inputs]
     occ.synchronize()
     surface_name: dict[int, str] = {}
     for name, outs in zip(owner, pieces):

@@ -29,6 +29,7 @@ from fluxlab.spec.schema import MAX_ELEMENTS_DEFAULT
 from fluxlab.studies.averaging import division_unit, position_counts
 
 __all__ = [
+    "facet_indices",
     "MachineMesh",
     "BOUNDARY_NAMES",
     "build_mesh",
@@ -245,7 +246,7 @@ def _rib_points(spec, sector_angle: float) -> np.ndarray:
     return np.vstack(pts) if pts else np.zeros((0, 2))
 
 
-def _facet_indices(mesh: MeshTri, pairs: np.ndarray) -> np.ndarray:
+def facet_indices(mesh: MeshTri, pairs: np.ndarray) -> np.ndarray:
     """Indices of mesh facets given as node pairs; MeshError when one is not a facet."""
     n = mesh.p.shape[1]
     facets = np.sort(mesh.facets, axis=0)
@@ -309,12 +310,12 @@ def build_mesh(spec) -> MachineMesh:
     for part, first in ((rotor, 0), (stator, n_rotor)):
         for k, name in enumerate(part.region_names):
             subdomains[name] = first + np.flatnonzero(part.element_region == k)
-    boundaries = {"outer": _facet_indices(mesh, stator.lines["outer"] + offset)}
+    boundaries = {"outer": facet_indices(mesh, stator.lines["outer"] + offset)}
     for part, suffix, shift in ((rotor, "rotor", 0), (stator, "stator", offset)):
-        boundaries[f"sliding_{suffix}"] = _facet_indices(mesh, part.lines["sliding"] + shift)
+        boundaries[f"sliding_{suffix}"] = facet_indices(mesh, part.lines["sliding"] + shift)
         if sectors > 1:  # the whole machine has no sector edges
             for edge in ("edge_start", "edge_end"):
-                boundaries[f"{edge}_{suffix}"] = _facet_indices(mesh, part.lines[edge] + shift)
+                boundaries[f"{edge}_{suffix}"] = facet_indices(mesh, part.lines[edge] + shift)
     mesh = mesh.with_subdomains(subdomains).with_boundaries(boundaries)
     rotor_element = np.zeros(mesh.t.shape[1], dtype=bool)
     rotor_element[:n_rotor] = True

@@ -12,6 +12,7 @@ from fluxlab.envelope import incremental_inductances, inverse_tables
 from fluxlab.report.figures import save_figure
 from fluxlab.report.plots import envelope as pe
 from fluxlab.report.plots.efficiency import plot_efficiency_map
+from fluxlab.report.stress_files import write_stress
 from fluxlab.report.tables import write_csv
 
 __all__ = ["TABLE_NOTES", "envelope_tables", "write_envelope"]
@@ -106,7 +107,7 @@ def write_envelope(result, out: Path) -> list[Path]:
     written = [write_csv(out / f"{stem}.csv", cols, TABLE_NOTES.get(stem))
                for stem, cols in envelope_tables(result).items()]
     summary = {**result.summary, "rib_warnings": list(result.ribs.warnings),
-               "timings_s": result.timings_s}
+               "stress_warnings": list(result.stress_warnings), "timings_s": result.timings_s}
     (out / "envelope_summary.json").write_text(json.dumps(summary, indent=2, default=float))
     written.append(out / "envelope_summary.json")
     figures = [
@@ -136,4 +137,6 @@ def write_envelope(result, out: Path) -> list[Path]:
         written += save_figure(fig, out, stem, ("png", "svg"))
     pe.add_envelope_page(out / "envelope.pdf", result)
     written.append(out / "envelope.pdf")
+    if result.stress is not None:
+        written += write_stress(result.stress, result.settings.max_speed_rpm, out)
     return written

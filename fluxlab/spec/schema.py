@@ -249,6 +249,9 @@ ROTOR_KEYS = (
     # (fluxlab.geometry.barrier_ends); at most stator.slots' limit, as n_r is compared
     # with the stator's slots per pole pair
     Key("rotor_slots_per_pole_pair", int, default=None, low=1, high=480),
+    # corner radius where a barrier meets its rib and post (fluxlab.geometry.fillets); 0.5 mm
+    # is a usual punching-die corner for 0.35-0.65 mm sheet (common practice, no source)
+    Key("rib_fillet_mm", float, default=0.5, scale=MM, low=0, high=20),
 )
 BARRIER_KEYS = (
     Key("depth_mm", float, scale=MM, low=0, low_open=True),
@@ -299,6 +302,8 @@ DRIVE_KEYS = (
     # friction and windage at the top speed, scaled by (n / n_max)^2 below it
     # (fluxlab.envelope.efficiency); 0 leaves them out
     Key("mechanical_loss_at_max_speed_W", float, default=0.0, low=0, high=1e9),
+    # the rotor stress is also checked here when given (an overspeed test speed, for example)
+    Key("overspeed_rpm", float, default=None, low=0, low_open=True, high=500000),
 )
 MATERIAL_REGIONS = ("stator", "rotor", "shaft")
 #: ``[skew]`` (optional): the rotor's skew over the stack, modelled by slices.

@@ -82,6 +82,7 @@ class RotorSpec:
 
     ``rotor_slots_per_pole_pair``: n_r when the file places the barrier ends at the rotor
     slot pitch (their ``end_angle`` resolved from it at load time), else None.
+    ``rib_fillet``: corner radius, m, where a barrier meets its rib and post (0: sharp).
     """
 
     shaft_diameter: float
@@ -91,6 +92,7 @@ class RotorSpec:
     min_steel: float
     barriers: tuple[BarrierSpec, ...]
     rotor_slots_per_pole_pair: int | None = None
+    rib_fillet: float = 0.5e-3
 
 
 @dataclass(frozen=True)
@@ -136,7 +138,8 @@ class DriveSpec:
     limit), averaged over ``flux_map_positions`` rotor positions (None: the machine's
     averaging count, see :mod:`fluxlab.studies.averaging`); ``rib_safety_factor`` on the
     rotor steel's yield strength; ``mechanical_loss_at_max_speed_W``: friction and windage
-    at ``max_speed_rpm``, W (see :mod:`fluxlab.envelope.efficiency`).
+    at ``max_speed_rpm``, W (see :mod:`fluxlab.envelope.efficiency`); ``overspeed_rpm``: a
+    speed above the top speed at which the rotor stress is checked too (None: not checked).
     """
 
     dc_link_voltage_V: float = 565.0
@@ -150,6 +153,7 @@ class DriveSpec:
     flux_map_positions: int | None = None
     rib_safety_factor: float = 1.5
     mechanical_loss_at_max_speed_W: float = 0.0
+    overspeed_rpm: float | None = None
 
 
 @dataclass(frozen=True)

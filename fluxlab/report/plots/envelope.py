@@ -206,10 +206,18 @@ def _key_rows(result) -> list[tuple[str, str]]:
         ("copper / iron loss (W)", f"{r['copper_loss_W']:.4g} / {r['iron_loss_W']:.4g}"),
         ("efficiency (mechanical loss {:.0f} W)".format(r.get("mechanical_loss_W", 0.0)),
          f"{r['efficiency']:.3f}"),
-        ("rib stress / allowed at top speed (MPa)",
-         f"{s['rib_max_stress_MPa']:.3g} / {s['rib_allowed_stress_MPa']:.3g}"
-         if s["rib_max_stress_MPa"] is not None else "no barriers"),
+        ("rib mean estimate, top speed (MPa)",
+         f"{s['rib_max_stress_MPa']:.3g}" if s["rib_max_stress_MPa"] is not None
+         else "no barriers"),
     ]
+    stress = s.get("rotor_stress", {})
+    for name in ("top_speed", "overspeed"):
+        if name in stress:
+            c = stress[name]
+            rows.append((f"FEM peak / allowed, {c['speed_rpm']:g} rpm (MPa)",
+                         f"{c['von_mises_max_MPa']:.3g} / {stress['allowed_MPa']:.3g}"))
+    if "skipped" in stress:
+        rows.append(("rotor FEM stress", "skipped: no elastic data"))
     return rows
 
 
@@ -218,7 +226,8 @@ def envelope_page_figure(result):
     import matplotlib.pyplot as plt
 
     fig = plt.figure(figsize=(11.69, 8.27))
-    warn = [*result.ribs.warnings, *result.summary.get("grid_warnings", [])]
+    stress = result.stress_warnings if result.stress is not None else result.ribs.warnings
+    warn = [*stress, *result.summary.get("grid_warnings", [])]
     # warnings take lines above the caution: the plots move up for them
     grid = fig.add_gridspec(3, 3, left=0.06, right=0.97, top=0.86,
                             bottom=0.15 + 0.035 * len(warn),
@@ -248,10 +257,11 @@ def envelope_page_figure(result):
                      bbox=[-0.05, 0.1, 1.1, 0.9], cellLoc="left")
     table.auto_set_font_size(False)
     table.set_fontsize(6.5)
-    text = caution_line(result.ribs.caution, "Iron loss: harmonic loss-separation estimate, "
-                        "scaled to frequency and flux level over the efficiency map; "
-                        "mechanical losses only as drive.mechanical_loss_at_max_speed_W gives "
-                        "them.")
+    stress_caution = result.summary.get("rotor_stress", {}).get("caution", "")
+    text = caution_line(result.ribs.caution, stress_caution, "Iron loss: harmonic "
+                        "loss-separation estimate, scaled to frequency and flux level over the "
+                        "efficiency map; mechanical losses only as "
+                        "drive.mechanical_loss_at_max_speed_W gives them.")
     fig.text(0.06, 0.03, ("WARNING: " + " ".join(warn) + "\n" if warn else "") + text,
              fontsize=7.5, wrap=True, va="bottom", color="darkred" if warn else "black")
     for a in fig.axes:

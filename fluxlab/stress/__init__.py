@@ -1,0 +1,1 @@
+"""Rotor stress at speed: plane-stress finite elements on a lamination sector."""
