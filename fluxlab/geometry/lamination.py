@@ -4,7 +4,7 @@ A lamination is an outer circle, an inner circle (the stator bore or the shaft b
 its cut-outs: the stator slots (opening and winding layers as one contour each, closed
 along the bore circle across the opening) or the rotor's barrier pieces (a post splits a
 barrier in two). The cut-outs come from the same shape trees as the modelled sector
-(:mod:`fluxlab.geometry.stator`, :mod:`fluxlab.geometry.rotor`), turned to every slot and
+(:mod:`fluxlab.geometry.stator`, :mod:`fluxlab.geometry.fillets`), turned to every slot and
 every pole. Coordinates in m, the machine centre at the origin; the rotor at position 0
 (its d-axis on +x), slot k with its axis at (k + 1/2) slot pitches from +x, as in the model.
 """
@@ -16,8 +16,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fluxlab.geometry.csg import Shape, cut, rotate, to_shapely, union
-from fluxlab.geometry.rotor import barrier_shape, post_shape
+from fluxlab.geometry.csg import Shape, rotate, to_shapely, union
+from fluxlab.geometry.fillets import barrier_air
 from fluxlab.geometry.stator import slot_shapes
 from fluxlab.spec.types import MachineSpec
 
@@ -79,9 +79,6 @@ def rotor_lamination(spec: MachineSpec) -> Lamination:
     pole_pitch = 2 * math.pi / spec.poles
     cutouts: list[np.ndarray] = []
     for i, barrier in enumerate(rotor.barriers):
-        shape = barrier_shape(rotor, r_rotor, barrier, f"rotor.barriers[{i}]")
-        post = post_shape(r_rotor, barrier)
-        if post is not None:
-            shape = cut(shape, post)
+        shape = barrier_air(rotor, r_rotor, barrier, f"rotor.barriers[{i}]")
         cutouts.extend(_contours(shape, spec.poles, 0.5 * pole_pitch))
     return Lamination("rotor", r_rotor, rotor.shaft_diameter / 2, "barrier", tuple(cutouts))
