@@ -5,6 +5,7 @@ The names a script needs::
     spec = load_machine("machine.toml")      # validated, SI units
     model = build_model(spec)                # mesh + assembly, once per candidate
     result = evaluate(spec)                  # all studies, no files
+    found = run_optimisation("opt.toml", "out/")  # search, verify: .front, .history
 """
 
 from fluxlab.errors import (
@@ -27,6 +28,7 @@ from fluxlab.studies.curves import (
 )
 from fluxlab.studies.evaluate import Evaluation, StudySettings, evaluate
 from fluxlab.studies.operating_point import averaged_point, solve_point
+from fluxlab.optimize import run_optimisation
 from fluxlab.sweep import run_sweep
 from fluxlab.version import __version__
 
@@ -42,6 +44,7 @@ __all__ = [
     "averaged_point",
     "evaluate",
     "run_sweep",
+    "run_optimisation",
     "Evaluation",
     "StudySettings",
     "torque_vs_position",
