@@ -20,6 +20,7 @@ from fluxlab.errors import (
 from fluxlab.fem.solver import solve_field
 from fluxlab.machine.model import build_model
 from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.optimize import run_optimisation
 from fluxlab.spec.machine_file import load_machine, machine_from_dict, replace_path
 from fluxlab.studies.curves import (
     inductance_curves,
@@ -28,7 +29,6 @@ from fluxlab.studies.curves import (
 )
 from fluxlab.studies.evaluate import Evaluation, StudySettings, evaluate
 from fluxlab.studies.operating_point import averaged_point, solve_point
-from fluxlab.optimize import run_optimisation
 from fluxlab.sweep import run_sweep
 from fluxlab.version import __version__
 
