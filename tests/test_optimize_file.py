@@ -77,6 +77,7 @@ BAD = [
     ({"studies": "point"}, "objectives.torque_ripple_pct: torque_ripple_pct is computed by "
                            "full studies only"),
     ({"serach": {}}, "serach: unknown key"),
+    ({"fixed": {END1: 24.0}}, "fixed.rotor.barriers[1].end_angle_deg: also varied"),
 ]
 
 

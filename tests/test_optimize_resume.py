@@ -79,7 +79,6 @@ def test_sigkill_then_rerun_repeats_no_evaluation_and_equals_an_uninterrupted_ru
                                  workers=2, evaluator=zdt1_evaluate)
     out, store = tmp_path / "killed", tmp_path / "killed" / "results.sqlite"
     env = {**os.environ, "FLUXLAB_FAKE_EVAL_DELAY_S": "0.2",
-           "FLUXLAB_TEST_COUNTER": str(tmp_path / "first.jsonl"),
            "PYTHONPATH": os.pathsep.join(filter(None, [str(TESTS),
                                                        os.environ.get("PYTHONPATH")]))}
     proc = subprocess.Popen([sys.executable, "-c", KILLED_RUN, json.dumps(_table()), str(out)],

@@ -313,6 +313,9 @@ def optimisation_from_dict(data: dict, base_dir: Path | str = ".") -> Optimisati
     paths = [p.path for p in parameters if p is not None]
     for path in sorted({p for p in paths if paths.count(p) > 1}):
         problems.append(f"parameters: {path} is varied more than once")
+    for path in fixed:
+        if path in paths:
+            problems.append(f"fixed.{path}: also varied under [[parameters]]")
     objectives = _read_objectives(data.get("objectives"), studies, problems)
     constraints = _read_constraints(data.get("constraints", {}), studies, problems)
     search = _read_search(data.get("search"), problems)

@@ -26,9 +26,11 @@ FRONT_CSV = "front.csv"
 def history_row(number: int, phase: str, generation: int, design: Design,
                 result: StoredResult, score: Score, reused: bool) -> dict:
     """One evaluation: its number in the run, the phase (``base``, ``search``, ``verify``),
-    the generation (0: the base machine), the varied keys, the status (done, rejected or
-    failed, as stored), whether it is feasible, the summary figures, the message (why it is
-    infeasible), whether the store already held it (``reused``) and its key."""
+    the generation (0: the base machine; the verify step is one after the last), the
+    ``fidelity`` (``search`` or the ``machine``'s own mesh), the varied keys, the status
+    (done, rejected or failed, as stored), whether it is feasible, the summary figures, the
+    message (why it is infeasible), whether the store already held it (``reused``) and its
+    key."""
     return {"evaluation": number, "phase": phase, "generation": generation,
             "fidelity": "search" if design.coarse else "machine", **design.values,
             "status": result.status, "feasible": score.feasible,

@@ -87,7 +87,8 @@ def plot_front(history: Sequence[dict], verified: Sequence[dict], front: Sequenc
     if bad:
         ax.scatter(_values(bad, fx), _values(bad, fy), s=16, marker="x", color="#c0392b",
                    alpha=0.6, label=f"outside a constraint ({len(bad)}, search mesh)")
-    designs = [r for r in verified if r["design"] != "base"]
+    designs = [r for r in verified if r["design"] != "base" and None not in
+               (r.get(fx), r.get(fy), r.get(f"search_{fx}"), r.get(f"search_{fy}"))]
     for r in designs:  # from the search mesh to the machine's own
         ax.annotate("", (r[fx], r[fy]), (r[f"search_{fx}"], r[f"search_{fy}"]),
                     arrowprops={"arrowstyle": "->", "color": _VERIFIED, "lw": 0.7,
