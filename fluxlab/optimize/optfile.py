@@ -55,7 +55,7 @@ from fluxlab.sweep.sweepfile import (
     PlanSpec,
     apply_fixed,
     is_number,
-    read_parameter,
+    read_parameters,
 )
 
 __all__ = ["ALGORITHMS", "GOALS", "FULL_ONLY_FIGURES", "Objective", "Constraint", "SearchSpec",
@@ -304,18 +304,7 @@ def optimisation_from_dict(data: dict, base_dir: Path | str = ".") -> Optimisati
     if studies not in STUDIES:
         problems.append(f"studies = {studies!r}: must be one of {', '.join(STUDIES)}")
         studies = "full"
-    items = data.get("parameters")
-    if not isinstance(items, list) or not items:
-        problems.append("parameters: required, an array of [[parameters]] tables")
-        items = []
-    parameters = [read_parameter(i, item, raw, _SEARCH_PLAN, problems)
-                  for i, item in enumerate(items)]
-    paths = [p.path for p in parameters if p is not None]
-    for path in sorted({p for p in paths if paths.count(p) > 1}):
-        problems.append(f"parameters: {path} is varied more than once")
-    for path in fixed:
-        if path in paths:
-            problems.append(f"fixed.{path}: also varied under [[parameters]]")
+    parameters = read_parameters(data.get("parameters"), raw, _SEARCH_PLAN, fixed, problems)
     objectives = _read_objectives(data.get("objectives"), studies, problems)
     constraints = _read_constraints(data.get("constraints", {}), studies, problems)
     search = _read_search(data.get("search"), problems)

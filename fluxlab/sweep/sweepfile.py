@@ -47,6 +47,7 @@ __all__ = [
     "MAX_CANDIDATES",
     "is_number",
     "read_parameter",
+    "read_parameters",
     "apply_fixed",
     "ParameterSpec",
     "PlanSpec",
@@ -234,6 +235,23 @@ def read_parameter(i: int, item: Any, raw: dict, plan: PlanSpec,
     return None if rng is None else ParameterSpec(path, kind, None, *rng)
 
 
+def read_parameters(items: Any, raw: dict, plan: PlanSpec, fixed: dict,
+                    problems: list[str]) -> list[ParameterSpec | None]:
+    """The ``[[parameters]]`` array (see :func:`read_parameter`), each key varied once and
+    none of them also ``fixed``; problems are appended."""
+    if not isinstance(items, list) or not items:
+        problems.append("parameters: required, an array of [[parameters]] tables")
+        items = []
+    parameters = [read_parameter(i, item, raw, plan, problems) for i, item in enumerate(items)]
+    paths = [p.path for p in parameters if p is not None]
+    for path in sorted({p for p in paths if paths.count(p) > 1}):
+        problems.append(f"parameters: {path} is varied more than once")
+    for path in fixed:
+        if path in paths:
+            problems.append(f"fixed.{path}: also varied under [[parameters]]")
+    return parameters
+
+
 def apply_fixed(data: Any, raw: dict, problems: list[str], where: str = "fixed") -> dict:
     """Set each ``"key.path" = value`` of the table ``data`` in ``raw``; problems are
     appended, named under ``where``. Returns the table."""
@@ -283,17 +301,7 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
     if studies not in STUDIES:
         problems.append(f"studies = {studies!r}: must be one of {', '.join(STUDIES)}")
     plan = _read_plan(data.get("plan", {}), problems)
-    items = data.get("parameters")
-    if not isinstance(items, list) or not items:
-        problems.append("parameters: required, an array of [[parameters]] tables")
-        items = []
-    parameters = [read_parameter(i, item, raw, plan, problems) for i, item in enumerate(items)]
-    paths = [p.path for p in parameters if p is not None]
-    for path in sorted({p for p in paths if paths.count(p) > 1}):
-        problems.append(f"parameters: {path} is varied more than once")
-    for path in fixed:
-        if path in paths:
-            problems.append(f"fixed.{path}: also varied under [[parameters]]")
+    parameters = read_parameters(data.get("parameters"), raw, plan, fixed, problems)
     if problems:
         raise SpecError(problems)
     parameters = tuple(parameters)
