@@ -50,8 +50,8 @@ def plot_objectives_over_run(history: Sequence[dict], objectives: Sequence[tuple
         pick = np.fmax if goal == "max" else np.fmin
         best = [pick.reduce(values[feasible & (gens <= g)]) if (feasible & (gens <= g)).any()
                 else np.nan for g in range(1, last + 1)]
-        ax.step(range(1, last + 1), best, where="post", color=_FRONT, lw=1.8,
-                label="best feasible so far")
+        ax.plot(range(1, last + 1), best, "-o", ms=4, color=_FRONT, lw=1.8,
+                label="best feasible so far (end of generation)")
         if base and base[0].get(figure) is not None:
             ax.axhline(base[0][figure], color=_BASE, ls="--", lw=1.0,
                        label="base machine (search mesh)")
