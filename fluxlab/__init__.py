@@ -5,6 +5,7 @@ The names a script needs::
     spec = load_machine("machine.toml")      # validated, SI units
     model = build_model(spec)                # mesh + assembly, once per candidate
     result = evaluate(spec)                  # all studies, no files
+    found = run_optimisation("opt.toml", "out/")  # search, verify: .front, .history
 """
 
 from fluxlab.errors import (
@@ -19,6 +20,7 @@ from fluxlab.errors import (
 from fluxlab.fem.solver import solve_field
 from fluxlab.machine.model import build_model
 from fluxlab.mesh.machine_mesh import build_mesh
+from fluxlab.optimize import run_optimisation
 from fluxlab.spec.machine_file import load_machine, machine_from_dict, replace_path
 from fluxlab.studies.curves import (
     inductance_curves,
@@ -42,6 +44,7 @@ __all__ = [
     "averaged_point",
     "evaluate",
     "run_sweep",
+    "run_optimisation",
     "Evaluation",
     "StudySettings",
     "torque_vs_position",

@@ -37,7 +37,8 @@ from fluxlab.report.plots.field import (  # noqa: E402
 from fluxlab.spec.machine_file import load_machine, replace_path  # noqa: E402
 
 GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
-MACHINES = sorted(p for p in GEOMETRIES.glob("*.toml") if not p.name.startswith("sweep"))
+MACHINES = sorted(p for p in GEOMETRIES.glob("*.toml")
+                  if not p.name.startswith(("sweep", "optimize")))  # not machine files
 # shapely draws a circle as a 720-gon: its vertices lie on the circle and its edges sag
 # inside by r (1 - cos(pi/720)) = 9.5e-6 r, 1.0 um at the 105 mm outer radius; the
 # outline polygons are cut 0.1 um apart (plots_field._SEAM). Twice that is the band.

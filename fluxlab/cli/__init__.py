@@ -35,7 +35,7 @@ from fluxlab.version import __version__
 
 __all__ = ["main", "option_problem"]
 
-_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "compare", "envelope",
+_COMMANDS = ("check", "mesh", "solve", "evaluate", "sweep", "optimize", "compare", "envelope",
              "export", "stress")
 
 
@@ -96,7 +96,7 @@ def _option_checks(args) -> list[tuple[str, Callable[[], object]]]:
         checks.append(("--linear-solver", lambda: _linear_solver(args.linear_solver)))
     for name in ("workers", "best", "positions", "points", "speed_points",
                  "inductance_points"):
-        if args.command in ("evaluate", "envelope", "sweep") and hasattr(args, name):
+        if args.command in ("evaluate", "envelope", "sweep", "optimize") and hasattr(args, name):
             flag = "--" + name.replace("_", "-")
             checks.append((flag, lambda name=name: _at_least_one(getattr(args, name))))
     if args.command == "evaluate":

@@ -139,12 +139,12 @@ def _table(ax, entries: Sequence[CompareEntry]) -> None:
     extra = list(dict.fromkeys(k for e in entries for k in (e.details or {})))
     text = [[_cell(e.details or {}, k, 1.0, "{:g}") for e in entries] for k in extra] + text
     labels = extra + labels
-    # the table fills its axes exactly (bbox), so no row runs into the panels around it
-    table = ax.table(cellText=text, rowLabels=labels,
-                     colLabels=[e.label for e in entries], cellLoc="center",
-                     bbox=[0.0, 0.0, 1.0, 1.0])
+    # the table fills its axes (bbox), so many rows (a sweep's varied keys) shrink to fit
+    # instead of running over the outlines and curves
+    table = ax.table(cellText=text, rowLabels=labels, colLabels=[e.label for e in entries],
+                     cellLoc="center", bbox=[0.0, 0.0, 1.0, 1.0])
     table.auto_set_font_size(False)
-    table.set_fontsize(8)
+    table.set_fontsize(8 if len(labels) <= 12 else 7)
     for j in range(len(entries)):
         table[0, j].get_text().set_color(_COLOURS[j % len(_COLOURS)])
 

@@ -85,6 +85,7 @@ class ProgressBar(_Line):
         self.total = total
         self.width = width
         self.counts = {"done": 0, "rejected": 0, "failed": 0}
+        self.note = ""  # shown at the end of the line (an optimisation's best so far)
 
     @property
     def finished(self) -> int:
@@ -100,7 +101,8 @@ class ProgressBar(_Line):
         return (f"[{'#' * filled}{'.' * (self.width - filled)}] {n}/{self.total}  "
                 + "  ".join(f"{k} {v}" for k, v in self.counts.items())
                 + f"  elapsed {format_duration(elapsed)}"
-                + (f"  ETA {format_duration(eta)}" if eta is not None else ""))
+                + (f"  ETA {format_duration(eta)}" if eta is not None else "")
+                + (f"  {self.note}" if self.note else ""))
 
     def update(self, status: str) -> None:
         """Count one finished candidate of ``status`` and redraw."""

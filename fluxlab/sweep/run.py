@@ -19,7 +19,7 @@ from fluxlab.sweep.sweepfile import SweepSpec, load_sweep
 from fluxlab.sweep.table import results_table, write_results_csv
 from fluxlab.sweep.worker import evaluate_task, resolve_evaluator
 
-__all__ = ["run_sweep", "evaluator_reference", "RESULTS_CSV"]
+__all__ = ["run_sweep", "evaluator_reference", "make_executor", "RESULTS_CSV"]
 
 log = logging.getLogger(__name__)
 RESULTS_CSV = "results.csv"
@@ -44,7 +44,8 @@ def evaluator_reference(evaluator: str | Callable | None) -> str:
     return ref
 
 
-def _executor(workers: int | None, scheduler) -> Executor:
+def make_executor(workers: int | None, scheduler) -> Executor:
+    """A local pool of ``workers`` processes, or the Dask ``scheduler`` when given."""
     return LocalPoolExecutor(workers) if scheduler is None else DaskExecutor(scheduler)
 
 
@@ -130,7 +131,7 @@ def run_sweep(sweep: str | Path | SweepSpec, out_dir: str | Path, workers: int |
         bar = ProgressBar(len(todo)) if progress and todo else None
         try:
             if todo:
-                _evaluate(todo, store, sweep, ref, _executor(workers, scheduler), bar)
+                _evaluate(todo, store, sweep, ref, make_executor(workers, scheduler), bar)
         finally:
             if bar is not None:
                 bar.close()

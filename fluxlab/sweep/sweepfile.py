@@ -45,6 +45,10 @@ __all__ = [
     "PLAN_KINDS",
     "STUDIES",
     "MAX_CANDIDATES",
+    "is_number",
+    "read_parameter",
+    "read_parameters",
+    "apply_fixed",
     "ParameterSpec",
     "PlanSpec",
     "SweepSpec",
@@ -104,7 +108,8 @@ class SweepSpec:
     fixed: dict
 
 
-def _is_number(value: Any) -> bool:
+def is_number(value: Any) -> bool:
+    """Whether ``value`` is a finite int or float (not a bool)."""
     return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
 
 
@@ -112,7 +117,7 @@ def _numeric_kind(raw: dict, path: str) -> type | None:
     kind = key_kind(path)
     if kind is None:  # not a schema key (a material table entry, say): go by the base value
         value = get_path(raw, path)
-        kind = type(value) if _is_number(value) else (None if value is None else str)
+        kind = type(value) if is_number(value) else (None if value is None else str)
     return kind
 
 
@@ -153,7 +158,7 @@ def _read_values(where: str, values: Any, kind: type, problems: list[str]) -> tu
     if not isinstance(values, list) or not values:
         problems.append(f"{where}.values = {values!r}: must be a non-empty list of numbers")
         return None
-    bad = [v for v in values if not _is_number(v)]
+    bad = [v for v in values if not is_number(v)]
     if bad:
         problems.append(f"{where}.values: {bad[0]!r} is not a number")
         return None
@@ -167,7 +172,7 @@ def _read_range(where: str, item: dict, kind: type, plan: PlanSpec, problems: li
     low, high, steps = item.get("low"), item.get("high"), item.get("steps")
     ok = True
     for name, value in (("low", low), ("high", high)):
-        if not _is_number(value):
+        if not is_number(value):
             problems.append(f"{where}.{name} = {value!r}: must be a number (or give values = "
                             "[...] instead of a range)")
             ok = False
@@ -189,8 +194,11 @@ def _read_range(where: str, item: dict, kind: type, plan: PlanSpec, problems: li
     return (float(low), float(high), steps) if ok else None
 
 
-def _read_parameter(i: int, item: Any, raw: dict, plan: PlanSpec,
-                    problems: list[str]) -> ParameterSpec | None:
+def read_parameter(i: int, item: Any, raw: dict, plan: PlanSpec,
+                   problems: list[str]) -> ParameterSpec | None:
+    """The ``parameters[i]`` table checked against the machine table ``raw`` (a numeric key,
+    values or a range fitting ``plan``); problems are appended, None when it is unusable.
+    Also read by optimisation files."""
     where = f"parameters[{i}]"
     if not isinstance(item, dict):
         problems.append(f"{where} = {item!r}: must be a table with path and values or a range")
@@ -227,15 +235,34 @@ def _read_parameter(i: int, item: Any, raw: dict, plan: PlanSpec,
     return None if rng is None else ParameterSpec(path, kind, None, *rng)
 
 
-def _apply_fixed(data: Any, raw: dict, problems: list[str]) -> dict:
+def read_parameters(items: Any, raw: dict, plan: PlanSpec, fixed: dict,
+                    problems: list[str]) -> list[ParameterSpec | None]:
+    """The ``[[parameters]]`` array (see :func:`read_parameter`), each key varied once and
+    none of them also ``fixed``; problems are appended."""
+    if not isinstance(items, list) or not items:
+        problems.append("parameters: required, an array of [[parameters]] tables")
+        items = []
+    parameters = [read_parameter(i, item, raw, plan, problems) for i, item in enumerate(items)]
+    paths = [p.path for p in parameters if p is not None]
+    for path in sorted({p for p in paths if paths.count(p) > 1}):
+        problems.append(f"parameters: {path} is varied more than once")
+    for path in fixed:
+        if path in paths:
+            problems.append(f"fixed.{path}: also varied under [[parameters]]")
+    return parameters
+
+
+def apply_fixed(data: Any, raw: dict, problems: list[str], where: str = "fixed") -> dict:
+    """Set each ``"key.path" = value`` of the table ``data`` in ``raw``; problems are
+    appended, named under ``where``. Returns the table."""
     if not isinstance(data, dict):
-        problems.append(f"fixed = {data!r}: must be a table of \"key.path\" = value")
+        problems.append(f"{where} = {data!r}: must be a table of \"key.path\" = value")
         return {}
     for path, value in data.items():
         try:
             set_path(raw, path, value)
         except SpecError as err:
-            problems.append(f"fixed.{err.problems[0]}")
+            problems.append(f"{where}.{err.problems[0]}")
     return dict(data)
 
 
@@ -269,22 +296,12 @@ def sweep_from_dict(data: dict, base_dir: Path | str = ".") -> SweepSpec:
     except SpecError as err:
         raise SpecError(problems + [f"base = {base!r}: {err}"]) from err
     raw = copy.deepcopy(base_raw)
-    fixed = _apply_fixed(data.get("fixed", {}), raw, problems)
+    fixed = apply_fixed(data.get("fixed", {}), raw, problems)
     studies = data.get("studies", "point")
     if studies not in STUDIES:
         problems.append(f"studies = {studies!r}: must be one of {', '.join(STUDIES)}")
     plan = _read_plan(data.get("plan", {}), problems)
-    items = data.get("parameters")
-    if not isinstance(items, list) or not items:
-        problems.append("parameters: required, an array of [[parameters]] tables")
-        items = []
-    parameters = [_read_parameter(i, item, raw, plan, problems) for i, item in enumerate(items)]
-    paths = [p.path for p in parameters if p is not None]
-    for path in sorted({p for p in paths if paths.count(p) > 1}):
-        problems.append(f"parameters: {path} is varied more than once")
-    for path in fixed:
-        if path in paths:
-            problems.append(f"fixed.{path}: also varied under [[parameters]]")
+    parameters = read_parameters(data.get("parameters"), raw, plan, fixed, problems)
     if problems:
         raise SpecError(problems)
     parameters = tuple(parameters)

@@ -13,7 +13,7 @@ from collections.abc import Sequence
 import numpy as np
 
 __all__ = ["OBJECTIVE_LABELS", "pareto_objectives", "pareto_front", "front_rows",
-           "plot_pareto", "plot_parameters"]
+           "label_points", "plot_pareto", "plot_parameters"]
 
 OBJECTIVE_LABELS = {
     "torque_mean_Nm": "mean torque (N·m)",
@@ -84,7 +84,7 @@ def _box_clear(box, dots: np.ndarray, boxes: list, margin: float) -> bool:
     return not inside.any() and apart
 
 
-def _label_points(ax, xs, ys, texts, obstacles) -> None:
+def label_points(ax, xs, ys, texts, obstacles) -> None:
     """Annotate points, each label at the first offset (points) whose box is clear of the
     earlier labels and of the other plotted points ``obstacles`` ((n, 2), data units)."""
     ax.autoscale_view()
@@ -134,8 +134,8 @@ def plot_pareto(rows: Sequence[dict], ax=None, label_front: bool = True):
     ax.scatter(other[idx], torque[idx], s=110, facecolors="none", edgecolors="#c0392b",
                linewidths=1.6, zorder=3, label="non-dominated (Pareto front)")
     if label_front:
-        _label_points(ax, other[idx], torque[idx], [f"#{done[i]['candidate']}" for i in idx],
-                      np.column_stack([other, torque]))
+        label_points(ax, other[idx], torque[idx], [f"#{done[i]['candidate']}" for i in idx],
+                     np.column_stack([other, torque]))
     ax.set_xlabel(OBJECTIVE_LABELS[second] + (", higher is better" if maximise
                                               else ", lower is better"))
     ax.set_ylabel(OBJECTIVE_LABELS["torque_mean_Nm"] + ", higher is better")
