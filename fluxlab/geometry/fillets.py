@@ -191,7 +191,9 @@ def fillet_problems(rotor: RotorSpec, radius: float, barrier: BarrierSpec, key: 
     for f in fillets:
         if not grown.contains(Point(f.centre).buffer(r_f, quad_segs=32)):
             return [f"{head}: too large for {key} (width_mm = {barrier.width * 1e3:.4g}, "
-                    f"post_mm = {barrier.post_width * 1e3:.4g}, rotor.tangential_rib_mm = "
+                    f"post_mm = {barrier.post_width * 1e3:.4g}, end_angle_deg = "
+                    f"{math.degrees(barrier.end_angle):.4g}, rotor.tangential_rib_mm = "
                     f"{rotor.tangential_rib * 1e3:.4g}); the rounded corners do not fit its "
-                    "ends; must be less than about half the barrier's width at its ends"]
+                    "ends, whose width the end angle and depth set; must be less than about "
+                    "half the barrier's width at its ends"]
     return []
