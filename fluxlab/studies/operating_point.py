@@ -258,17 +258,21 @@ def peak_angle(value: Callable[[float], float], known: dict[float, float], toler
 
     ``known``: angle -> value already evaluated (a grid; extended with every new angle). The
     peak is bracketed between the best known angle and its neighbours, bisecting towards 0
-    or pi/2 while the best lies at the edge, then found by Brent's method (scipy
-    ``minimize_scalar`` with the bracket: parabolic steps, golden sections where they fail).
+    or pi/2 while the best lies at the edge, then found by successive parabolic
+    interpolation through the best angle and its bracketing neighbours (W. H. Press et al.,
+    "Numerical Recipes", 3rd ed., section 10.3, inverse parabolic interpolation; a golden
+    section of the larger side where the parabola's vertex falls outside the bracket). It
+    stops when the vertex lies within ``tolerance`` / 2 of the best angle: near its maximum
+    the position-averaged torque is smooth and close to a parabola (a sum of sin 2k gamma
+    terms), so the vertex of three points that close is within the tolerance of the peak.
     Returns None when ``value`` keeps rising to 0 or pi/2 (no interior maximum; the edge is
     then the best of ``known``). One maximiser for every MTPA in fluxlab.
     """
-    from scipy.optimize import minimize_scalar
 
-    def negative(gamma: float) -> float:
+    def at(gamma: float) -> float:
         if gamma not in known:
             known[gamma] = value(gamma)
-        return -known[gamma]
+        return known[gamma]
 
     while True:
         angles = sorted(known)
@@ -278,12 +282,34 @@ def peak_angle(value: Callable[[float], float], known: dict[float, float], toler
         step = ((0.0 if k == 0 else math.pi / 2) - angles[k]) / 2  # towards pure i_d or i_q
         if abs(step) < tolerance:
             return None
-        negative(angles[k] + step)
-    # Brent's xtol is relative to the angle (at most pi/2 rad): the error, twice the final
-    # tolerance, stays within ``tolerance``
-    minimize_scalar(negative, bracket=(angles[k - 1], angles[k], angles[k + 1]),
-                    method="brent", options={"xtol": tolerance / math.pi})
+        at(angles[k] + step)
+    for _ in range(_MAX_PEAK_STEPS):
+        angles = sorted(known)
+        k = max(range(len(angles)), key=lambda i: known[angles[i]])
+        a, b, c = angles[k - 1], angles[k], angles[k + 1]
+        x = _vertex(a, b, c, known[a], known[b], known[c])
+        if abs(x - b) < tolerance / 2 or c - a < tolerance:
+            break
+        at(x)
     return max(known, key=known.get)
+
+
+#: Safeguard on the parabolic steps of :func:`peak_angle` (each is at least a golden section
+#: of the bracket when the parabola misleads, so 40 shrink a 90-degree bracket below 1e-6 rad).
+_MAX_PEAK_STEPS = 40
+_GOLDEN = 0.381966011250105  # (3 - sqrt 5) / 2
+
+
+def _vertex(a: float, b: float, c: float, fa: float, fb: float, fc: float) -> float:
+    """The vertex of the parabola through (a, fa), (b, fb), (c, fc), a < b < c, fb the
+    largest; where it is no maximum inside (a, c), a golden section of the larger side."""
+    p = (b - a) ** 2 * (fb - fc) - (b - c) ** 2 * (fb - fa)
+    q = (b - a) * (fb - fc) - (b - c) * (fb - fa)
+    if q != 0.0:
+        x = b - 0.5 * p / q
+        if a < x < c and x != b:
+            return x
+    return b + _GOLDEN * (c - b) if c - b > b - a else b - _GOLDEN * (b - a)
 
 
 @dataclass(frozen=True)
