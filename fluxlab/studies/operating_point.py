@@ -224,8 +224,8 @@ def mtpa_search(model, current_peak: float, known: Sequence[AveragedPoint],
 
     ``known``: points at this current (a grid); the search brackets the peak between the
     best one and its neighbours, bisecting towards 0 or 90 deg first when the best lies at
-    the edge of ``known``, then runs Brent's method (scipy ``minimize_scalar``, parabolic
-    steps within the bracket) until the angle is known to ``tolerance_deg``. Each new angle
+    the edge of ``known``, then refines it by parabolas through the best angle and its
+    neighbours (:func:`peak_angle`) until the angle is known to ``tolerance_deg``. Each new angle
     costs one solve per averaging position; every rotor step starts from the field of the
     nearest angle solved so far (``fields``: current angle in rad -> start vector per rotor
     step, extended here).
