@@ -230,14 +230,20 @@ _ANGLE = "torque vs current angle"
 _INDUCTANCE = "inductance curve"
 
 
-def _ripple_tasks(model, currents: dict[str, tuple[float, float]], pieces: int) -> list:
+def _ripple_tasks(model, currents: dict[str, tuple[float, float]], pieces: int,
+                  fields: dict[str, dict] | None = None) -> list:
     """The ripple studies at ``currents`` (label -> (peak A, angle rad)) as ``pieces`` chains
     of neighbouring positions, one task each, every chain solving all the currents at each
     of its steps (:func:`fluxlab.studies.curves.solve_position_sets`): short tasks keep both
-    cores busy to the end (a piece costs one cold start more)."""
+    cores busy to the end. A chain starts from ``fields`` (label -> field per rotor step of
+    the same current, from the angle study) where its first step has one, else cold."""
     chains = [c for c in np.array_split(ripple_steps(model), pieces) if c.size]
+    fields = fields or {}
     return [(f"{_RIPPLE} ({', '.join(currents)}), part {k + 1}/{len(chains)}",
-             solve_position_sets, (tuple(currents.values()), c)) for k, c in enumerate(chains)]
+             solve_position_sets,
+             (tuple(currents.values()), c, None,
+              tuple(fields.get(label, {}).get(int(c[0])) for label in currents)))
+            for k, c in enumerate(chains)]
 
 
 def _ripple_results(model, done: dict, labels: list[str]) -> dict:
@@ -294,9 +300,11 @@ def _full_studies(model, settings, angle, pool, say) -> dict:
     rated = studies[0].mtpa if angle is None else studies[0].at(math.degrees(angle))
     # the ripple studies wait for their MTPA angles and run together, step by step
     currents = {"rated": (op.current_peak_A, rated.current_angle)}
+    fields = {"rated": studies[0].fields_at(rated.current_angle)}
     if len(studies) > 1:
         currents["overload"] = (op.overload_current_peak_A, studies[1].mtpa.current_angle)
-    done.update(pool.run(model, _ripple_tasks(model, currents, pool.workers), say))
+        fields["overload"] = studies[1].fields_at(studies[1].mtpa.current_angle)
+    done.update(pool.run(model, _ripple_tasks(model, currents, pool.workers, fields), say))
     ripples = _ripple_results(model, done, list(currents))
     ripple, points = ripples["rated"]
     overload = ripples["overload"][0] if "overload" in ripples else None
