@@ -144,7 +144,9 @@ def _table(ax, entries: Sequence[CompareEntry]) -> None:
     table = ax.table(cellText=text, rowLabels=labels, colLabels=[e.label for e in entries],
                      cellLoc="center", bbox=[0.0, 0.0, 1.0, 1.0])
     table.auto_set_font_size(False)
-    table.set_fontsize(8 if len(labels) <= 12 else 7)
+    # a row's height in points, less a margin of a fifth above and below the text
+    row_pt = ax.get_position().height * ax.figure.get_figheight() * 72 / (len(labels) + 1)
+    table.set_fontsize(min(8.0, 0.6 * row_pt))
     for j in range(len(entries)):
         table[0, j].get_text().set_color(_COLOURS[j % len(_COLOURS)])
 
