@@ -15,7 +15,14 @@ from pathlib import Path
 
 from fluxlab.report import manifest
 
-__all__ = ["Output", "add_overwrite", "open_output", "open_machine_output"]
+__all__ = ["Output", "add_machine_and_out", "add_overwrite", "open_output", "open_machine_output"]
+
+
+def add_machine_and_out(parser) -> None:
+    """The arguments of a command that reads a machine file and writes a folder."""
+    parser.add_argument("machine", help="machine file (TOML)")
+    parser.add_argument("--out", required=True, help="output folder")
+    add_overwrite(parser)
 
 
 def add_overwrite(parser) -> None:

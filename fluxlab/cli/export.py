@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from fluxlab.cli._output import add_overwrite, open_machine_output
+from fluxlab.cli._output import add_machine_and_out, open_machine_output
 from fluxlab.geometry.lamination import rotor_lamination, stator_lamination
 from fluxlab.report.drawing import write_lamination_dxf
 from fluxlab.spec.machine_file import load_machine
@@ -19,9 +19,7 @@ __all__ = ["add_args", "run"]
 
 
 def add_args(parser) -> None:
-    parser.add_argument("machine", help="machine file (TOML)")
-    parser.add_argument("--out", required=True, help="output folder")
-    add_overwrite(parser)
+    add_machine_and_out(parser)
 
 
 def run(args) -> int:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from fluxlab.cli._output import add_overwrite, open_machine_output
+from fluxlab.cli._output import add_machine_and_out, open_machine_output
 from fluxlab.mesh.machine_mesh import build_mesh
 from fluxlab.report.figures import save_figure
 from fluxlab.report.plots.mesh import plot_mesh
@@ -15,9 +15,7 @@ __all__ = ["add_args", "run"]
 
 
 def add_args(parser) -> None:
-    parser.add_argument("machine", help="machine file (TOML)")
-    parser.add_argument("--out", required=True, help="output folder")
-    add_overwrite(parser)
+    add_machine_and_out(parser)
 
 
 def run(args) -> int:

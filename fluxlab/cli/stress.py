@@ -29,7 +29,7 @@ def speed_of(args, spec) -> float:
     """The speed asked for, rpm, or the machine's top speed."""
     if args.speed_rpm is not None:
         return args.speed_rpm
-    return spec.drive.max_speed_rpm or 2 * spec.operating.speed_rpm
+    return spec.top_speed_rpm
 
 
 def run(args) -> int:

@@ -132,8 +132,7 @@ def rib_stress(spec: MachineSpec, speed_rpm: float | None = None,
     barrier above it, and when the yield strength is unknown (0).
     """
     drive = spec.drive
-    speed = speed_rpm if speed_rpm is not None else (
-        drive.max_speed_rpm or 2 * spec.operating.speed_rpm)
+    speed = speed_rpm if speed_rpm is not None else spec.top_speed_rpm
     factor = drive.rib_safety_factor if safety_factor is None else safety_factor
     problems = []
     if not (math.isfinite(speed) and speed >= 0):

@@ -106,7 +106,7 @@ def envelope_settings(spec: MachineSpec, **overrides) -> EnvelopeSettings:
     values = dict(
         current_limit_peak_A=limit,
         voltage_limit_peak_V=phase_voltage_limit(d.dc_link_voltage_V, d.modulation_limit),
-        max_speed_rpm=d.max_speed_rpm or 2 * op.speed_rpm,
+        max_speed_rpm=spec.top_speed_rpm,
         map_points=d.flux_map_points,
         map_max_current_A=d.flux_map_max_current_peak_A or limit,
         map_positions=d.flux_map_positions or averaging_positions(spec),

@@ -220,6 +220,11 @@ class MachineSpec:
         return self.poles // 2
 
     @property
+    def top_speed_rpm(self) -> float:
+        """The drive's top speed, rpm: ``drive.max_speed_rpm``, else twice the rated speed."""
+        return self.drive.max_speed_rpm or 2 * self.operating.speed_rpm
+
+    @property
     def rotor_radius(self) -> float:
         """Rotor outer radius, m."""
         return self.stator.bore_diameter / 2 - self.stator.airgap

@@ -24,10 +24,9 @@ def evaluate_with_stress(spec: MachineSpec, **kwargs) -> Evaluation:
     ``yield_speed_rpm``."""
     result = evaluate(spec, **kwargs)
     stress = rotor_stress(spec)
-    speed = spec.drive.max_speed_rpm or 2 * spec.operating.speed_rpm
-    peak = stress.peak_Pa(speed)
+    speed = spec.top_speed_rpm
     summary = {**result.summary, "stress_speed_rpm": speed,
-               "stress_von_mises_max_MPa": peak / 1e6,
-               "safety_factor": stress.mechanics.yield_strength_Pa / peak,
+               "stress_von_mises_max_MPa": stress.peak_Pa(speed) / 1e6,
+               "safety_factor": stress.safety_factor(speed),
                "yield_speed_rpm": stress.yield_speed_rpm()}
     return dataclasses.replace(result, summary=summary)

@@ -87,6 +87,11 @@ class RotorStress:
         """Largest von Mises stress at ``speed_rpm``, Pa."""
         return float(self.von_mises.max()) * _omega(speed_rpm) ** 2
 
+    def safety_factor(self, speed_rpm: float) -> float | None:
+        """Yield strength over the peak at ``speed_rpm`` (None at standstill)."""
+        peak = self.peak_Pa(speed_rpm)
+        return self.mechanics.yield_strength_Pa / peak if peak > 0 else None
+
     def yield_speed_rpm(self) -> float:
         """Speed at which the peak reaches yield, rpm: sigma ~ omega^2, so
         omega_y = sqrt(yield / peak at 1 rad/s)."""
@@ -151,7 +156,7 @@ def stress_summary(result: RotorStress, speed_rpm: float) -> dict:
         "youngs_modulus_GPa": m.youngs_modulus_Pa / 1e9,
         "poisson_ratio": m.poisson_ratio,
         "yield_strength_MPa": m.yield_strength_Pa / 1e6,
-        "safety_factor": m.yield_strength_Pa / peak if peak > 0 else None,
+        "safety_factor": result.safety_factor(speed_rpm),
         "yield_speed_rpm": result.yield_speed_rpm(),
         "radial_growth_max_mm": growth * 1e3,
         "radial_growth_airgap_share": growth / result.spec.stator.airgap,
@@ -178,7 +183,7 @@ def speed_checks(result: RotorStress, speeds: dict[str, float], required: float
     warnings = []
     for name, speed in speeds.items():
         peak = result.peak_Pa(speed)
-        factor = m.yield_strength_Pa / peak if peak > 0 else None
+        factor = result.safety_factor(speed)
         out[name] = {"speed_rpm": speed, "von_mises_max_MPa": peak / 1e6,
                      "safety_factor": factor}
         if factor is not None and factor < required:
